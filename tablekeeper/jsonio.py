@@ -1,0 +1,77 @@
+"""Canonical JSON: strict reading and the one byte form every file is written in.
+
+Canonical form is orjson's output with sorted keys, 2-space indent and a trailing newline: floats in
+shortest round-trip form, UTF-8, stable key order, so that load-then-save gives identical bytes and a
+diff shows one changed line per changed value.
+
+Reading is strict. orjson already refuses NaN, Infinity, numbers that overflow a double, integers
+beyond 64 bits, a byte-order mark and invalid UTF-8; what it silently accepts (a duplicate key keeps
+the last value) is caught by comparing against the canonical bytes and re-reading a non-canonical file
+with the standard library and a hook that refuses duplicates.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+import orjson
+
+from .errors import DamagedFileError
+
+_OPTS = orjson.OPT_INDENT_2 | orjson.OPT_SORT_KEYS | orjson.OPT_APPEND_NEWLINE
+
+#: Largest record file read; a larger one is refused before parsing.
+MAX_FILE_BYTES = 1 << 20
+
+
+def dumps(obj: Any) -> bytes:
+    """The canonical bytes of a JSON document."""
+    return orjson.dumps(obj, option=_OPTS)
+
+
+def dumps_line(obj: Any) -> bytes:
+    """One compact JSON line (journal), keys sorted, with the newline."""
+    return orjson.dumps(obj, option=orjson.OPT_SORT_KEYS | orjson.OPT_APPEND_NEWLINE)
+
+
+def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict:
+    out: dict[str, Any] = {}
+    for k, v in pairs:
+        if k in out:
+            raise ValueError(f"the key {k!r} appears twice")
+        out[k] = v
+    return out
+
+
+def _no_constant(name: str) -> Any:
+    raise ValueError(f"{name} is not a number JSON allows")
+
+
+def loads(raw: bytes, *, file: str | None = None) -> Any:
+    """Parse JSON strictly; raise DamagedFileError naming the file and what is wrong."""
+    try:
+        obj = orjson.loads(raw)
+    except orjson.JSONDecodeError as exc:
+        raise DamagedFileError(f"not valid JSON ({exc})", file=file) from None
+    if isinstance(obj, dict | list) and orjson.dumps(obj, option=_OPTS) != raw:
+        # Not canonical: hand-edited, or hiding a duplicate key. Re-read with the strict hook.
+        try:
+            json.loads(raw.decode("utf-8"), object_pairs_hook=_no_duplicates, parse_constant=_no_constant)
+        except (ValueError, RecursionError) as exc:
+            raise DamagedFileError(f"not valid JSON ({exc})", file=file) from None
+    return obj
+
+
+def read(path: Path) -> Any:
+    """Read one JSON file strictly, refusing files larger than MAX_FILE_BYTES."""
+    try:
+        size = path.stat().st_size
+        if size > MAX_FILE_BYTES:
+            raise DamagedFileError(f"is {size} bytes, larger than the {MAX_FILE_BYTES} bytes a record may be",
+                                   file=str(path))
+        raw = path.read_bytes()
+    except OSError as exc:
+        raise DamagedFileError(f"cannot be read ({exc.strerror})", file=str(path)) from None
+    return loads(raw, file=str(path))

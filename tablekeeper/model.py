@@ -1,0 +1,157 @@
+"""Plain typed data: property fields, species values, and the species table as one DataFrame.
+
+Records live on disk as JSON objects (see schemas/species.schema.json). The checks and the faces work
+on ``species_frame``: one row per species, one column per scalar, built once per load, so that a check
+over 100k species is a handful of array operations rather than a Python loop.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from . import formula as _formula
+from .errors import FormulaError
+from .units import FIELD_KINDS
+
+#: The property fields of a species, in display order.
+FIELDS: tuple[str, ...] = ("dfH298", "S298", "dfG298", "Cp298")
+PHASES: tuple[str, ...] = ("g", "l", "cr", "am", "aq")
+METHODS: tuple[str, ...] = ("measured", "evaluated", "estimated", "derived")
+STATUSES: tuple[str, ...] = ("draft", "reviewed", "deprecated")
+LABELS = {
+    "dfH298": "ΔfH°",
+    "S298": "S°",
+    "dfG298": "ΔfG°",
+    "Cp298": "Cp°",
+}
+
+
+@dataclass(frozen=True)
+class PropertyValue:
+    """One property value in its canonical unit with its GUM uncertainty."""
+
+    field: str
+    value: float
+    unit: str
+    uncertainty: float | None = None
+    coverage: float = 1.0
+    source: str | None = None
+    method: str | None = None
+    entered_value: float | None = None
+    entered_unit: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.field not in FIELD_KINDS:
+            raise ValueError(f"{self.field!r} is not a property field")
+        if not math.isfinite(self.value):
+            raise ValueError(f"{self.field}: value must be finite")
+        if self.uncertainty is not None and not (self.uncertainty >= 0):
+            raise ValueError(f"{self.field}: uncertainty must be zero or positive")
+        if not self.coverage > 0:
+            raise ValueError(f"{self.field}: coverage factor must be positive")
+
+    @property
+    def standard_uncertainty(self) -> float | None:
+        """u = U / k (GUM)."""
+        return None if self.uncertainty is None else self.uncertainty / self.coverage
+
+    @classmethod
+    def from_json(cls, name: str, obj: Mapping) -> PropertyValue:
+        ent = obj.get("entered") or {}
+        return cls(field=name, value=float(obj["value"]), unit=obj["unit"],
+                   uncertainty=obj.get("uncertainty"), coverage=float(obj.get("coverage", 1.0)),
+                   source=obj.get("source"), method=obj.get("method"),
+                   entered_value=ent.get("value"), entered_unit=ent.get("unit"))
+
+    def to_json(self) -> dict:
+        out: dict = {"value": self.value, "unit": self.unit}
+        if self.uncertainty is not None:
+            out["uncertainty"] = self.uncertainty
+        if self.coverage != 1.0:
+            out["coverage"] = self.coverage
+        if self.source:
+            out["source"] = self.source
+        if self.method:
+            out["method"] = self.method
+        if self.entered_unit is not None and self.entered_value is not None:
+            out["entered"] = {"value": self.entered_value, "unit": self.entered_unit}
+        return out
+
+
+def property_values(record: Mapping) -> dict[str, PropertyValue]:
+    props = record.get("properties") or {}
+    return {k: PropertyValue.from_json(k, v) for k, v in props.items() if k in FIELD_KINDS}
+
+
+def display_name(record: Mapping) -> str:
+    """``H2O(l)`` or ``C(cr, graphite)``."""
+    phase = record.get("phase", "?")
+    form = record.get("form")
+    return f"{record.get('formula', '?')}({phase}{', ' + form if form else ''})"
+
+
+# -- the species table -------------------------------------------------------------------------------
+
+FRAME_COLUMNS = (
+    ["id", "name", "formula", "phase", "form", "charge", "reference_state", "status", "cp_kind",
+     "hill", "atoms", "molar_mass", "formula_charge", "formula_error"]
+    + [c for f in FIELDS for c in (f, f"u_{f}", f"src_{f}", f"method_{f}", f"entered_unit_{f}")]
+)
+
+
+def _get(d: object, key: str):
+    return d.get(key) if isinstance(d, dict) else None
+
+
+def species_frame(records: Mapping[str, Mapping]) -> pd.DataFrame:
+    """One row per species, indexed by id. Numbers are float64 (NaN where missing); uncertainties are
+    standard uncertainties (U/k). Formula-derived columns come from the formula parser (cached)."""
+    ids = sorted(records)
+    cols: dict[str, list] = {c: [] for c in FRAME_COLUMNS}
+    for ident in ids:
+        rec = records[ident]
+        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
+        cols["id"].append(ident)
+        cols["name"].append(rec.get("name"))
+        cols["formula"].append(rec.get("formula"))
+        cols["phase"].append(rec.get("phase"))
+        cols["form"].append(rec.get("form"))
+        ch = rec.get("charge")
+        cols["charge"].append(ch if isinstance(ch, int) and not isinstance(ch, bool) else np.nan)
+        cols["reference_state"].append(bool(rec.get("reference_state", False)))
+        cols["status"].append(rec.get("status"))
+        cols["cp_kind"].append(_get(rec.get("cp_model"), "kind"))
+        try:
+            f = _formula.parse(rec.get("formula"))
+            cols["hill"].append(f.hill)
+            cols["atoms"].append(f.atoms)
+            cols["molar_mass"].append(f.molar_mass)
+            cols["formula_charge"].append(f.charge)
+            cols["formula_error"].append(None)
+        except (FormulaError, TypeError) as exc:
+            cols["hill"].append(None)
+            cols["atoms"].append(np.nan)
+            cols["molar_mass"].append(np.nan)
+            cols["formula_charge"].append(np.nan)
+            cols["formula_error"].append(str(getattr(exc, "reason", exc)))
+        for fld in FIELDS:
+            pv = props.get(fld)
+            v = _get(pv, "value")
+            cols[fld].append(float(v) if isinstance(v, int | float) and not isinstance(v, bool) else np.nan)
+            u = _get(pv, "uncertainty")
+            k = _get(pv, "coverage") or 1.0
+            ok = isinstance(u, int | float) and not isinstance(u, bool) and isinstance(k, int | float) and k > 0
+            cols[f"u_{fld}"].append(float(u) / float(k) if ok else np.nan)
+            cols[f"src_{fld}"].append(_get(pv, "source"))
+            cols[f"method_{fld}"].append(_get(pv, "method"))
+            cols[f"entered_unit_{fld}"].append(_get(_get(pv, "entered"), "unit"))
+    frame = pd.DataFrame(cols, columns=FRAME_COLUMNS)
+    for c in ["charge", "atoms", "molar_mass", "formula_charge", *FIELDS, *(f"u_{f}" for f in FIELDS)]:
+        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
+    frame.index = pd.Index(ids, name="species")
+    return frame

@@ -1,0 +1,130 @@
+"""Units: the one pint registry of the program, field dimensions and canonical units.
+
+Chemists write ``kJ mol-1`` and ``J K-1 mol-1``; pint does not read those, so ``normalise`` rewrites a
+unit string into pint's syntax first. The calorie is the thermochemical calorie, exactly 4.184 J
+(NIST SP 811), which is pint's ``cal``. Per-particle energies (eV, J per molecule) are molar after a
+factor of the Avogadro constant.
+
+Conversion is by a multiplicative factor per (unit, field), parsed once and cached, so that a column of
+100k values converts with one array multiplication.
+"""
+
+from __future__ import annotations
+
+import functools
+import re
+from dataclasses import dataclass
+
+import pint
+
+from .errors import UnitError
+
+#: The one registry. Built once; pint registries are slow to construct.
+ureg = pint.UnitRegistry()
+ureg.formatter.default_format = "~P"
+
+#: Avogadro constant (exact, SI 2019) used for per-particle quantities.
+AVOGADRO = 6.02214076e23
+#: Molar gas constant (CODATA 2018, exact: N_A·k).
+R = 8.314462618
+
+
+@dataclass(frozen=True)
+class FieldKind:
+    """The physical dimension of a field and its canonical unit."""
+
+    name: str
+    canonical: str
+    dimensionality: str  # human description for error messages
+
+
+MOLAR_ENERGY = FieldKind("molar energy", "kJ/mol", "energy per amount (like kJ/mol)")
+MOLAR_ENTROPY = FieldKind("molar entropy", "J/(mol*K)", "energy per amount per kelvin (like J/(mol·K))")
+
+#: Property fields of a species and their kinds.
+FIELD_KINDS: dict[str, FieldKind] = {
+    "dfH298": MOLAR_ENERGY,
+    "dfG298": MOLAR_ENERGY,
+    "S298": MOLAR_ENTROPY,
+    "Cp298": MOLAR_ENTROPY,
+}
+
+_CANONICAL_Q = {
+    MOLAR_ENERGY.name: ureg.Quantity(1, "kJ/mol"),
+    MOLAR_ENTROPY.name: ureg.Quantity(1, "J/(mol*K)"),
+}
+_PER_PARTICLE = {
+    MOLAR_ENERGY.name: ureg.Quantity(1, "J"),
+    MOLAR_ENTROPY.name: ureg.Quantity(1, "J/K"),
+}
+
+_EXPONENT = re.compile(r"([A-Za-z]+)\s*\^?\s*(-?\d+)")
+
+
+def normalise(text: str) -> str:
+    """Rewrite a chemist's unit string into pint syntax (``kJ mol-1`` → ``kJ * mol**-1``)."""
+    s = text.strip().replace("·", "*").replace("⋅", "*").replace("−", "-").replace("⁻¹", "-1")
+    s = _EXPONENT.sub(lambda m: f"{m.group(1)}**{m.group(2)}", s)
+    # Juxtaposition means multiplication: "J mol**-1 K**-1".
+    s = re.sub(r"(?<=[\w)])\s+(?=[A-Za-z(])", "*", s)
+    return s
+
+
+@functools.lru_cache(maxsize=512)
+def factor_to_canonical(unit: str, field: str) -> float:
+    """Multiplicative factor that converts a value in ``unit`` into the field's canonical unit.
+
+    Raises UnitError with a sentence when the unit does not parse or its dimension does not fit.
+    The factor is rounded to 15 significant digits so that exact definitions stay exact
+    (kcal → kJ is 4.184, not 4.184000000000001).
+    """
+    kind = FIELD_KINDS.get(field)
+    if kind is None:
+        raise UnitError(f"{field!r} is not a field with a unit", field=field)
+    if not unit or not unit.strip():
+        raise UnitError("a unit is required", field=field)
+    try:
+        q = ureg.Quantity(1, normalise(unit))
+    except Exception as exc:  # pint raises several unrelated types on bad syntax
+        raise UnitError(f"{unit!r} is not a unit tablekeeper understands ({type(exc).__name__})",
+                        field=field) from None
+    target = _CANONICAL_Q[kind.name]
+    if q.dimensionality == target.dimensionality:
+        f = q.to(target.units).magnitude
+    elif q.dimensionality == _PER_PARTICLE[kind.name].dimensionality:
+        # A per-particle quantity (eV, J/K per molecule): molar after × N_A.
+        f = (q * AVOGADRO * ureg.mol**-1).to(target.units).magnitude
+    else:
+        raise UnitError(
+            f"{unit!r} does not fit {field}, which is a {kind.name}: give {kind.dimensionality}",
+            field=field)
+    return float(f"{float(f):.15g}")
+
+
+def to_canonical(value: float, unit: str, field: str) -> float:
+    """Convert one value to the field's canonical unit."""
+    f = factor_to_canonical(unit, field)
+    return value if f == 1.0 else value * f
+
+
+def canonical_unit(field: str) -> str:
+    kind = FIELD_KINDS.get(field)
+    if kind is None:
+        raise UnitError(f"{field!r} is not a field with a unit", field=field)
+    return kind.canonical
+
+
+_NUMBER_UNIT = re.compile(r"^\s*([-+−]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+def parse_quantity(text: str, field: str) -> tuple[float, str, float]:
+    """Parse ``"-68.3 kcal/mol"`` for a field: (canonical value, unit as typed, entered value).
+
+    A bare number is taken in the canonical unit.
+    """
+    m = _NUMBER_UNIT.match(text or "")
+    if not m:
+        raise UnitError(f"{text!r} is not a number with an optional unit", field=field)
+    entered = float(m.group(1).replace("−", "-"))
+    unit = m.group(2) or canonical_unit(field)
+    return to_canonical(entered, unit, field), unit, entered
