@@ -208,7 +208,7 @@ class Dataset:
         self.meta: dict = jsonio.read(meta_path)
         if not isinstance(self.meta, dict):
             raise DamagedFileError("must hold a JSON object", file=str(meta_path))
-        self._lock = filelock.FileLock(str(self.root / LOCK_NAME), timeout=30)
+        self._lock = filelock.FileLock(str(self.root / LOCK_NAME), timeout=30, mode=_new_file_mode(self.root))
         self.recover()
 
     # -- creation --------------------------------------------------------------------------------------

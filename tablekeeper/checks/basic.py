@@ -4,8 +4,6 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 
-import numpy as np
-
 from .. import validation
 from ..model import FIELDS
 from . import Context, Finding, check
@@ -129,17 +127,18 @@ def duplicate_check(ctx: Context) -> Iterator[Finding]:
     live = fr[(fr["status"] != "deprecated") & fr["hill"].notna()]
     key = (live["hill"].astype(str) + "|" + live["phase"].astype(str) + "|"
            + live["form"].fillna("").astype(str))
-    counts = key.map(key.value_counts())
-    dup = live.index[np.asarray(counts > 1)]
-    groups: dict[str, list[str]] = {}
-    for ident in dup:
-        groups.setdefault(key[ident], []).append(ident)
-    for members in groups.values():
-        for ident in members:
-            others = ", ".join(m for m in members if m != ident)
-            row = fr.loc[ident]
+    dup = key[key.duplicated(keep=False)]
+    if dup.empty:
+        return
+    rows = fr.loc[dup.index, ["formula", "phase", "form"]].to_dict("index")
+    for _, members in dup.groupby(dup, sort=True):
+        ids = list(members.index)
+        for ident in ids:
+            others = [m for m in ids if m != ident]
+            shown = ", ".join(others[:5]) + (f" and {len(others) - 5} more" if len(others) > 5 else "")
+            row = rows[ident]
             form = f", form {row['form']}" if isinstance(row["form"], str) else ""
             yield Finding("duplicate", "error",
-                          f"{row['formula']}({row['phase']}{form}) is also recorded as {others}",
+                          f"{row['formula']}({row['phase']}{form}) is also recorded as {shown}",
                           species=ident, field="formula",
                           suggestion="deprecate or delete one record, or give each a distinct form label")
