@@ -408,6 +408,29 @@ class Dataset:
         finally:
             os.close(fd)
 
+    def _journal_size(self) -> int:
+        try:
+            return os.stat(self.root / JOURNAL).st_size
+        except FileNotFoundError:
+            return 0
+
+    def _undo(self, files: list[tuple[Path, bytes | None]], journal_size: int) -> None:
+        """After a save failed past its rename (a folder fsync, the journal append): put the files and
+        the journal back as they were, so that an error reported to the user means nothing changed."""
+        for path, raw in files:
+            try:
+                if raw is None:
+                    path.unlink(missing_ok=True)
+                elif not path.is_file() or path.read_bytes() != raw:
+                    atomic_write(path, raw)
+            except OSError:
+                pass  # the original error is raised; a disk this broken is reported by the next check
+        try:
+            if self._journal_size() > journal_size:
+                os.truncate(self.root / JOURNAL, journal_size)
+        except OSError:
+            pass
+
     def save(self, kind: str, record: dict, *, expected_revision: int | None, reason: str | None = None,
              action: str | None = None) -> dict:
         """Save a record if the revision on disk is ``expected_revision`` (None: must not exist yet).
@@ -429,11 +452,16 @@ class Dataset:
             new = dict(record)
             if kind != "releases":
                 new["revision"] = found + 1
-            atomic_write(path, jsonio.dumps(new))
-            changes = field_changes(old, new)
-            self.append_journal(action or ("create" if old is None else "update"), f"{kind}/{ident}",
-                                revision=new.get("revision", 1), changes=changes, reason=reason,
-                                _locked=True)
+            undo = [(path, path.read_bytes() if old is not None else None)], self._journal_size()
+            try:
+                atomic_write(path, jsonio.dumps(new))
+                changes = field_changes(old, new)
+                self.append_journal(action or ("create" if old is None else "update"), f"{kind}/{ident}",
+                                    revision=new.get("revision", 1), changes=changes, reason=reason,
+                                    _locked=True)
+            except BaseException:
+                self._undo(*undo)
+                raise
         return new
 
     def save_many(self, kind: str, records: Iterable[tuple[dict, int | None]], *, reason: str | None,
@@ -454,23 +482,25 @@ class Dataset:
                 new = dict(record, revision=found + 1)
                 plans.append((path, old, new))
             staged: list[tuple[Path, Path]] = []
+            undo = [(p, p.read_bytes() if o is not None else None) for p, o, _ in plans], self._journal_size()
             try:
                 for path, _old, new in plans:
                     tmp = path.parent / f".{path.name}{_TMP_MARK}{os.getpid()}-{secrets.token_hex(4)}"
-                    atomic_write(tmp, jsonio.dumps(new))  # fsynced under its own temporary name
                     staged.append((tmp, path))
+                    atomic_write(tmp, jsonio.dumps(new))  # fsynced under its own temporary name
+                for tmp, path in staged:
+                    os.replace(tmp, path)
+                if SAFETY.fsync and staged:
+                    _fsync_dir(staged[0][1].parent)
+                for path, old, new in plans:
+                    self.append_journal(action if old is None else "update", f"{kind}/{path.stem}",
+                                        revision=new["revision"], changes=field_changes(old, new),
+                                        reason=reason, _locked=True)
             except BaseException:
                 for tmp, _ in staged:
                     tmp.unlink(missing_ok=True)
+                self._undo(*undo)
                 raise
-            for tmp, path in staged:
-                os.replace(tmp, path)
-            if SAFETY.fsync and staged:
-                _fsync_dir(staged[0][1].parent)
-            for path, old, new in plans:
-                self.append_journal(action if old is None else "update", f"{kind}/{path.stem}",
-                                    revision=new["revision"], changes=field_changes(old, new),
-                                    reason=reason, _locked=True)
         return [new for _, _, new in plans]
 
     def delete(self, kind: str, ident: str, *, expected_revision: int, reason: str | None = None) -> None:
@@ -483,11 +513,16 @@ class Dataset:
             found = int(old.get("revision", 0))
             if found != expected_revision:
                 raise ConflictError(f"{kind}/{ident}", expected_revision, found, old, None)
-            path.unlink()
-            if SAFETY.fsync:
-                _fsync_dir(path.parent)
-            self.append_journal("delete", f"{kind}/{ident}", revision=found,
-                                changes=field_changes(old, None), reason=reason, _locked=True)
+            undo = [(path, path.read_bytes())], self._journal_size()
+            try:
+                path.unlink()
+                if SAFETY.fsync:
+                    _fsync_dir(path.parent)
+                self.append_journal("delete", f"{kind}/{ident}", revision=found,
+                                    changes=field_changes(old, None), reason=reason, _locked=True)
+            except BaseException:
+                self._undo(*undo)
+                raise
 
     def save_meta(self, meta: dict, reason: str | None = None) -> None:
         self.require("edit")

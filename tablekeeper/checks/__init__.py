@@ -149,7 +149,7 @@ class Report:
 
 
 #: Modules of check families; importing one registers its checks, in catalogue order.
-FAMILIES = ("basic",)
+FAMILIES = ("basic", "consistency", "heat_capacity", "curation")
 
 
 def _load_families() -> None:

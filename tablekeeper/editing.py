@@ -1,0 +1,605 @@
+"""Editing one species record: field texts in, a would-be record, its problems and the save out.
+
+Both faces edit through this module. An editor holds the record as loaded (``original``) and the texts
+the user typed, one per field path (``name``, ``properties.dfH298.value``, ...). ``RecordEdit.result``
+applies every typed text to a copy of the original and validates the result: unit parsing and
+conversion (``-68.3 kcal/mol`` becomes the canonical kJ/mol value, keeping what was entered), then the
+species JSON Schema. Nothing here touches the disk except ``save_edit`` and ``apply_unit_fix``, which
+go through ``Dataset.save`` (revision check, atomic write, journal line with the user's reason).
+
+Numbers are shown in the shortest text that reads back as the same float (``repr``), never rounded to
+a fixed number of decimals, so that what a user sees is exactly what is stored.
+"""
+
+from __future__ import annotations
+
+import copy
+import math
+from collections.abc import Iterable, Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from . import formula as _formula
+from . import validation
+from .errors import FormulaError, InputError, UnitError
+from .model import FIELDS, LABELS, METHODS, PHASES, STATUSES
+from .store import SLUG, Dataset, flatten
+from .units import FIELD_KINDS, canonical_unit, factor_to_canonical, parse_quantity
+
+#: Sub-fields of a property value that an editor offers, in order.
+PROPERTY_PARTS: tuple[str, ...] = ("value", "uncertainty", "coverage", "source", "method")
+
+#: Top-level fields an editor offers, in order (id and revision are never edited).
+SCALAR_FIELDS: tuple[str, ...] = ("name", "formula", "phase", "form", "charge", "status", "reference_state",
+                                  "cas", "notes")
+
+#: Units a unit slip is usually made in, per field kind, tried when naming what was entered by mistake.
+_SLIP_UNITS = {
+    "molar energy": ("kcal/mol", "J/mol", "cal/mol", "MJ/mol"),
+    "molar entropy": ("cal/(mol*K)", "kJ/(mol*K)", "mJ/(mol*K)", "kcal/(mol*K)"),
+}
+_TRUE = {"yes", "y", "true", "1"}
+_FALSE = {"no", "n", "false", "0"}
+
+
+@dataclass(frozen=True)
+class FieldSpec:
+    """One editable field: its dotted path in the record and how to label it."""
+
+    path: str
+    label: str
+    prop: str | None = None  # dfH298 ... for the parts of a property value
+    part: str | None = None
+
+    @property
+    def unit(self) -> str | None:
+        if self.prop and self.part in ("value", "uncertainty"):
+            return canonical_unit(self.prop)
+        return None
+
+
+def _specs() -> tuple[FieldSpec, ...]:
+    out = [FieldSpec(name, name.replace("_", " ")) for name in SCALAR_FIELDS]
+    for prop in FIELDS:
+        for part in PROPERTY_PARTS:
+            out.append(FieldSpec(f"properties.{prop}.{part}", f"{LABELS[prop]} {part}", prop, part))
+    return tuple(out)
+
+
+#: Every editable field, in the order an editor shows them.
+EDIT_FIELDS: tuple[FieldSpec, ...] = _specs()
+SPEC_BY_PATH: dict[str, FieldSpec] = {s.path: s for s in EDIT_FIELDS}
+
+
+def number_text(value: Any) -> str:
+    """The shortest text that reads back as the stored number (``repr`` of a float); '' for none."""
+    if value is None or isinstance(value, bool):
+        return ""
+    if isinstance(value, int):
+        return str(value)
+    if isinstance(value, float):
+        if math.isnan(value):
+            return ""
+        return repr(value)
+    return str(value)
+
+
+def _clean_float(x: float) -> float:
+    """A converted value without binary noise: 15 significant digits hold every digit of a typed value
+    times an exact factor such as 4.184 (-68.3 kcal/mol is -285.7672, not -285.76720000000006)."""
+    return float(f"{x:.15g}")
+
+
+def field_path(finding_field: str | None) -> str | None:
+    """The editor field a finding's field names: ``dfH298`` or a JSON pointer such as
+    ``/properties/dfH298/uncertainty``. None when the editor has no such field (cp_model, ...)."""
+    if not finding_field:
+        return None
+    parts = [p for p in finding_field.strip("/").split("/" if "/" in finding_field else ".") if p]
+    if not parts:
+        return None
+    if parts[0] in FIELDS:
+        parts = ["properties", *parts]
+    if parts[0] == "properties" and len(parts) >= 2 and parts[1] in FIELDS:
+        part = parts[2] if len(parts) >= 3 and parts[2] in PROPERTY_PARTS else "value"
+        return f"properties.{parts[1]}.{part}"
+    return parts[0] if parts[0] in SCALAR_FIELDS else None
+
+
+def field_text(record: Mapping, path: str) -> str:
+    """The text an editor shows for a field of a record."""
+    spec = SPEC_BY_PATH.get(path)
+    if spec is None:
+        raise InputError(f"{path!r} is not an editable field", record=record.get("id"), field=path)
+    if spec.prop:
+        prop = (record.get("properties") or {}).get(spec.prop)
+        if not isinstance(prop, Mapping):
+            return ""
+        v = prop.get(spec.part)
+        if spec.part in ("value", "uncertainty", "coverage"):
+            return number_text(v)
+        return "" if v is None else str(v)
+    v = record.get(path)
+    if path == "reference_state":
+        return "" if v is None else ("yes" if v else "no")
+    if path == "charge":
+        return number_text(v)
+    return "" if v is None else str(v)
+
+
+@dataclass
+class EditResult:
+    """A would-be record and what an editor shows beside each field."""
+
+    record: dict
+    problems: dict[str, str] = field(default_factory=dict)  # path -> reason; any problem blocks a save
+    notes: dict[str, str] = field(default_factory=dict)  # path -> information (a conversion made)
+
+    @property
+    def ok(self) -> bool:
+        return not self.problems
+
+    def sentences(self) -> list[str]:
+        """Each problem as one sentence naming the record and field."""
+        ident = self.record.get("id")
+        return [str(InputError(reason, record=ident, field=path)) for path, reason in self.problems.items()]
+
+
+def _parse_number(text: str) -> float:
+    try:
+        v = float(text.strip().replace("−", "-"))
+    except ValueError:
+        raise ValueError(f"{text.strip()[:40]!r} is not a number") from None
+    if not math.isfinite(v):
+        raise ValueError(f"{text.strip()[:40]!r} is not a finite number")
+    return v
+
+
+def _apply_scalar(rec: dict, path: str, text: str) -> str | None:
+    """Set a top-level field from its text; return a note or None. Raises ValueError with a reason."""
+    t = text.strip()
+    if path in ("name", "notes", "cas", "form"):
+        if not t:
+            rec.pop(path, None)
+            return None
+        if path == "form" and not SLUG.match(t):
+            raise ValueError(f"{t[:40]!r} is not a form label: use a-z, 0-9, '.', '_', '-'")
+        # Free text keeps the user's spacing inside; only the ends are trimmed.
+        rec[path] = t
+        return None
+    if path == "formula":
+        if not t:
+            raise ValueError("a species needs a formula")
+        try:
+            parsed = _formula.parse(t)
+        except FormulaError as exc:
+            raise ValueError(exc.reason) from None
+        rec[path] = t
+        charge = f", charge {parsed.charge:+d}" if parsed.charge else ""
+        return f"{parsed.hill}, {parsed.molar_mass:.4f} g/mol{charge}"
+    if path == "phase":
+        if t not in PHASES:
+            raise ValueError(f"{t[:20]!r} is not a phase: use one of {', '.join(PHASES)}")
+        rec[path] = t
+        return None
+    if path == "status":
+        if t not in STATUSES:
+            raise ValueError(f"{t[:20]!r} is not a status: use one of {', '.join(STATUSES)}")
+        rec[path] = t
+        return None
+    if path == "charge":
+        try:
+            rec[path] = int(t.replace("−", "-"))
+        except ValueError:
+            raise ValueError(f"{t[:20]!r} is not a whole number") from None
+        return None
+    if path == "reference_state":
+        low = t.lower()
+        if not low:
+            rec.pop(path, None)
+        elif low in _TRUE:
+            rec[path] = True
+        elif low in _FALSE:
+            rec[path] = False
+        else:
+            raise ValueError(f"{t[:20]!r}: answer yes or no")
+        return None
+    raise ValueError(f"{path!r} is not an editable field")
+
+
+def _apply_part(rec: dict, spec: FieldSpec, text: str) -> str | None:
+    """Set one part of a property value; return a note or None. Raises ValueError with a reason."""
+    assert spec.prop and spec.part
+    props = rec.setdefault("properties", {})
+    prop = props.get(spec.prop)
+    t = text.strip()
+    if spec.part == "value":
+        if not t:
+            props.pop(spec.prop, None)
+            return "the value will be removed" if prop is not None else None
+        try:
+            canonical, unit, entered = parse_quantity(t, spec.prop)
+            factor = factor_to_canonical(unit, spec.prop)
+        except UnitError as exc:
+            raise ValueError(exc.reason) from None
+        if not math.isfinite(canonical):
+            raise ValueError(f"{t[:40]!r} is not a finite number")
+        new = dict(prop) if isinstance(prop, Mapping) else {}
+        new["unit"] = canonical_unit(spec.prop)
+        new.pop("entered", None)
+        if factor == 1.0:
+            new["value"] = float(entered)
+            props[spec.prop] = new
+            return None
+        new["value"] = _clean_float(canonical)
+        new["entered"] = {"value": float(entered), "unit": unit}
+        props[spec.prop] = new
+        shown = f"{number_text(new['value'])} {new['unit']}"
+        return f"= {shown} (entered {number_text(float(entered))} {unit}, kept)"
+    if not isinstance(prop, Mapping):
+        if t:
+            raise ValueError(f"give the {LABELS[spec.prop]} value first")
+        return None
+    new = dict(prop)
+    props[spec.prop] = new
+    if spec.part == "uncertainty":
+        if not t:
+            new.pop("uncertainty", None)
+            if isinstance(new.get("entered"), dict):
+                new["entered"] = {k: v for k, v in new["entered"].items() if k != "uncertainty"}
+            return None
+        try:
+            canonical, unit, entered = parse_quantity(t, spec.prop)
+            factor = factor_to_canonical(unit, spec.prop)
+        except UnitError as exc:
+            raise ValueError(exc.reason) from None
+        if canonical < 0:
+            raise ValueError("an uncertainty cannot be negative")
+        if factor == 1.0:
+            new["uncertainty"] = float(entered)
+            return None
+        new["uncertainty"] = _clean_float(canonical)
+        if isinstance(new.get("entered"), dict) and new["entered"].get("unit") == unit:
+            new["entered"] = dict(new["entered"], uncertainty=float(entered))
+        return f"= {number_text(new['uncertainty'])} {new['unit']}"
+    if spec.part == "coverage":
+        if not t:
+            new.pop("coverage", None)
+            return None
+        k = _parse_number(t)
+        if not 0 < k <= 10:
+            raise ValueError("the coverage factor k must be above 0 and at most 10")
+        new["coverage"] = k
+        return "expanded uncertainty U = k·u" if k != 1 else None
+    if spec.part == "source":
+        if not t:
+            new.pop("source", None)
+            return None
+        if not SLUG.match(t):
+            raise ValueError(f"{t[:40]!r} is not a source id: use a-z, 0-9, '.', '_', '-'")
+        new["source"] = t
+        return None
+    if spec.part == "method":
+        if not t:
+            new.pop("method", None)
+            return None
+        if t not in METHODS:
+            raise ValueError(f"{t[:20]!r} is not a method: use one of {', '.join(METHODS)}")
+        new["method"] = t
+        return None
+    raise ValueError(f"{spec.path!r} is not an editable field")
+
+
+def pointer_path(pointer: str) -> str:
+    """The editor field a schema error's JSON pointer belongs to ('record' for the whole record)."""
+    return field_path(pointer) or (pointer.strip("/").split("/")[0] if pointer.strip("/") else "record")
+
+
+def build(original: Mapping, texts: Mapping[str, str], *, sources: Iterable[str] | None = None) -> EditResult:
+    """Apply typed texts to a copy of ``original`` and validate the would-be record."""
+    rec = copy.deepcopy(dict(original))
+    result = EditResult(rec)
+    known = set(sources) if sources is not None else None
+    for spec in EDIT_FIELDS:  # fixed order: a property's value before its other parts
+        if spec.path not in texts:
+            continue
+        try:
+            note = _apply_part(rec, spec, texts[spec.path]) if spec.prop else \
+                _apply_scalar(rec, spec.path, texts[spec.path])
+        except ValueError as exc:
+            result.problems[spec.path] = str(exc)
+            continue
+        if note:
+            result.notes[spec.path] = note
+    if known is not None:
+        for prop in FIELDS:
+            src = ((rec.get("properties") or {}).get(prop) or {}).get("source")
+            path = f"properties.{prop}.source"
+            if src and src not in known and path not in result.problems:
+                result.notes[path] = f"no source named {src!r} yet: add it on the sources screen"
+    if not result.problems:
+        for pointer, msg in validation.errors("species", rec):
+            result.problems.setdefault(pointer_path(pointer), msg)
+    return result
+
+
+class RecordEdit:
+    """The state of one editor: the record as loaded and the texts typed over it.
+
+    Texts equal to the original's own text are dropped, so an untouched field never changes the record
+    (the value and unit as entered are kept exactly).
+    """
+
+    def __init__(self, original: Mapping, *, sources: Iterable[str] | None = None) -> None:
+        self.original: dict = copy.deepcopy(dict(original))
+        self.texts: dict[str, str] = {}
+        self.sources = set(sources) if sources is not None else None
+
+    @property
+    def ident(self) -> str:
+        return str(self.original.get("id"))
+
+    @property
+    def revision(self) -> int:
+        return int(self.original.get("revision", 0))
+
+    def text(self, path: str) -> str:
+        return self.texts.get(path, field_text(self.original, path))
+
+    def set_text(self, path: str, text: str) -> None:
+        if path not in SPEC_BY_PATH:
+            raise InputError(f"{path!r} is not an editable field", record=self.ident, field=path)
+        if text == field_text(self.original, path):
+            self.texts.pop(path, None)
+        else:
+            self.texts[path] = text
+
+    def undo_field(self, path: str) -> None:
+        self.texts.pop(path, None)
+
+    def undo_all(self) -> None:
+        self.texts.clear()
+
+    @property
+    def dirty(self) -> list[str]:
+        """Paths with a typed change, in editor order."""
+        return [s.path for s in EDIT_FIELDS if s.path in self.texts]
+
+    def result(self) -> EditResult:
+        return build(self.original, self.texts, sources=self.sources)
+
+    def changes(self) -> list[FieldChange]:
+        """What a save would change, field by field."""
+        return diff(self.original, self.result().record)
+
+    def rebase(self, theirs: Mapping) -> None:
+        """Take the version on disk as the new base and keep the typed texts over it: "reload theirs and
+        apply mine again". Texts that now equal the new base are dropped."""
+        self.original = copy.deepcopy(dict(theirs))
+        for path in list(self.texts):
+            if self.texts[path] == field_text(self.original, path):
+                del self.texts[path]
+
+    def saved(self, record: Mapping) -> None:
+        """After a successful save the saved record is the new base and nothing is pending."""
+        self.original = copy.deepcopy(dict(record))
+        self.texts.clear()
+
+
+# -- differences ---------------------------------------------------------------------------------------
+
+_ABSENT = object()
+
+
+@dataclass(frozen=True)
+class FieldChange:
+    """One leaf that differs between two versions of a record."""
+
+    field: str
+    old: Any = None
+    new: Any = None
+    old_present: bool = True
+    new_present: bool = True
+
+
+def diff(old: Mapping | None, new: Mapping | None) -> list[FieldChange]:
+    """Leaf-by-leaf differences (dotted paths), ignoring the revision counter."""
+    a = flatten(dict(old or {}))
+    b = flatten(dict(new or {}))
+    out = []
+    for key in sorted(set(a) | set(b)):
+        if key == "revision":
+            continue
+        va, vb = a.get(key, _ABSENT), b.get(key, _ABSENT)
+        if va is _ABSENT or vb is _ABSENT or va != vb or type(va) is not type(vb):
+            out.append(FieldChange(key, None if va is _ABSENT else va, None if vb is _ABSENT else vb,
+                                   va is not _ABSENT, vb is not _ABSENT))
+    return out
+
+
+@dataclass(frozen=True)
+class ConflictRow:
+    """One field in a conflict: the version both started from, mine and theirs."""
+
+    field: str
+    base: Any
+    mine: Any
+    theirs: Any
+    mine_changed: bool
+    theirs_changed: bool
+
+    @property
+    def clash(self) -> bool:
+        """Both changed the field, to different values."""
+        return self.mine_changed and self.theirs_changed and self.mine != self.theirs
+
+
+def conflict_rows(base: Mapping, mine: Mapping, theirs: Mapping | None) -> list[ConflictRow]:
+    """Every field that I or they changed since ``base``; ``theirs`` None means they deleted it."""
+    b, m, t = flatten(dict(base)), flatten(dict(mine)), flatten(dict(theirs or {}))
+    rows = []
+    for key in sorted(set(b) | set(m) | set(t)):
+        if key == "revision":
+            continue
+        vb, vm, vt = b.get(key, _ABSENT), m.get(key, _ABSENT), t.get(key, _ABSENT)
+        mc, tc = vm != vb, vt != vb
+        if mc or tc:
+            rows.append(ConflictRow(key, None if vb is _ABSENT else vb, None if vm is _ABSENT else vm,
+                                    None if vt is _ABSENT else vt, mc, tc))
+    return rows
+
+
+# -- saving --------------------------------------------------------------------------------------------
+
+def save_edit(dataset: Dataset, edit: RecordEdit, reason: str) -> dict:
+    """Save the edited record with the user's reason (journaled) and return it as saved. Refuses an
+    invalid record or an empty reason with InputError; raises ConflictError (both versions inside) when
+    someone saved first. The editor is not changed: the caller makes the saved record its new base
+    (``RecordEdit.saved``) on its own thread."""
+    dataset.require("edit")
+    reason = (reason or "").strip()
+    if not reason:
+        raise InputError("a save needs a reason for the journal", record=edit.ident, field="reason")
+    result = edit.result()
+    if not result.ok:
+        raise InputError(result.sentences()[0].split(": ", 1)[-1], record=edit.ident,
+                         field=next(iter(result.problems)))
+    if not diff(edit.original, result.record):
+        raise InputError("nothing to save: no field differs from the record as loaded", record=edit.ident)
+    return dataset.save("species", result.record, expected_revision=edit.revision, reason=reason)
+
+
+def slip_unit(field_name: str, observed: float, expected: float) -> str | None:
+    """The unit a value was probably typed in, when ``expected`` is ``observed`` in that unit converted to
+    the canonical one (kcal/mol typed into a kJ/mol field: expected = 4.184 × observed)."""
+    kind = FIELD_KINDS.get(field_name)
+    if kind is None or not observed or not math.isfinite(observed) or not math.isfinite(expected):
+        return None
+    ratio = expected / observed
+    for unit in _SLIP_UNITS[kind.name]:
+        if math.isclose(ratio, factor_to_canonical(unit, field_name), rel_tol=1e-9):
+            return unit
+    return None
+
+
+def unit_fix(record: Mapping, finding: Any) -> dict:
+    """The record with a ``unit-suspect`` finding's correction applied: the field's value becomes the
+    finding's expected canonical value, and the stored number is kept as what was entered, in the unit
+    the slip was made in. The uncertainty is left as it is: whether it was typed in the same unit is not
+    known, and the user sees it beside the value.
+
+    Refuses (InputError) a finding of another check, or one that no longer matches the record.
+    """
+    ident = record.get("id")
+    if getattr(finding, "check", None) != "unit-suspect":
+        raise InputError("only a unit-suspect finding carries a unit correction", record=ident)
+    fld = finding.field
+    path = field_path(fld)
+    if path is None or not path.endswith(".value"):
+        raise InputError(f"the finding names no property value ({fld!r})", record=ident)
+    prop_name = path.split(".")[1]
+    expected = finding.expected
+    if expected is None or not math.isfinite(expected):
+        raise InputError("the finding gives no corrected value", record=ident, field=prop_name)
+    prop = (record.get("properties") or {}).get(prop_name)
+    if not isinstance(prop, Mapping) or not isinstance(prop.get("value"), int | float):
+        raise InputError("the record has no such value any more", record=ident, field=prop_name)
+    current = float(prop["value"])
+    if finding.observed is not None and not math.isclose(current, finding.observed, rel_tol=1e-12, abs_tol=0):
+        raise InputError(f"the value is now {number_text(current)}, not the {number_text(finding.observed)} "
+                         "the check saw; run the checks again", record=ident, field=prop_name)
+    new = copy.deepcopy(dict(record))
+    value = dict(prop, value=float(expected), unit=canonical_unit(prop_name))
+    unit = slip_unit(prop_name, current, float(expected))
+    if unit:
+        value["entered"] = {"value": current, "unit": unit}
+    else:
+        value.pop("entered", None)
+    new["properties"][prop_name] = value
+    return new
+
+
+def apply_unit_fix(dataset: Dataset, finding: Any, *, reason: str | None = None) -> dict:
+    """Load the finding's record, apply its unit correction and save it, journaled."""
+    dataset.require("edit")
+    if not finding.species:
+        raise InputError("the finding names no species")
+    record = dataset.load("species", finding.species)
+    new = unit_fix(record, finding)
+    errs = validation.errors("species", new)
+    if errs:
+        raise InputError(errs[0][1], record=finding.species, field=pointer_path(errs[0][0]))
+    prop_name = str(field_path(finding.field)).split(".")[1]
+    old = record["properties"][prop_name]["value"]
+    why = reason or (f"unit-suspect fix of {prop_name}: {number_text(old)} -> "
+                     f"{number_text(new['properties'][prop_name]['value'])} {canonical_unit(prop_name)}")
+    return dataset.save("species", new, expected_revision=int(record.get("revision", 0)), reason=why)
+
+
+# -- sources -------------------------------------------------------------------------------------------
+
+#: Fields of a source an editor offers, in order; authors are one text separated by ';'.
+SOURCE_FIELDS: tuple[str, ...] = ("id", "title", "authors", "year", "identifier", "kind", "notes")
+SOURCE_KINDS: tuple[str, ...] = ("journal", "compilation", "report", "internal", "handbook", "other")
+
+
+def source_text(record: Mapping | None, name: str) -> str:
+    """The text an editor shows for a field of a source."""
+    v = (record or {}).get(name)
+    if v is None:
+        return ""
+    if name == "authors" and isinstance(v, list):
+        return "; ".join(str(a) for a in v)
+    return str(v)
+
+
+def build_source(original: Mapping | None, texts: Mapping[str, str]) -> EditResult:
+    """A would-be source from typed texts over ``original`` (None for a new source), schema-checked."""
+    rec: dict = copy.deepcopy(dict(original)) if original else {}
+    result = EditResult(rec)
+    for name in SOURCE_FIELDS:
+        if name not in texts:
+            continue
+        t = texts[name].strip()
+        if name == "id":
+            if original is not None and t != original.get("id"):
+                result.problems[name] = "the id of an existing source cannot change"
+            elif not SLUG.match(t):
+                result.problems[name] = f"{t[:40]!r} is not an id: use a-z, 0-9, '.', '_', '-'"
+            else:
+                rec["id"] = t
+        elif not t:
+            rec.pop(name, None)
+        elif name == "authors":
+            rec[name] = [a.strip() for a in t.split(";") if a.strip()]
+        elif name == "year":
+            try:
+                rec[name] = int(t)
+            except ValueError:
+                result.problems[name] = f"{t[:20]!r} is not a year"
+        elif name == "kind" and t not in SOURCE_KINDS:
+            result.problems[name] = f"{t[:20]!r} is not a kind: use one of {', '.join(SOURCE_KINDS)}"
+        else:
+            rec[name] = t
+    rec.setdefault("revision", 1)  # the schema wants one; the store sets the real number on save
+    if not result.problems:
+        for pointer, msg in validation.errors("sources", rec):
+            name = pointer.strip("/").split("/")[0] or "record"
+            result.problems.setdefault(name, msg)
+    return result
+
+
+def save_source(dataset: Dataset, original: Mapping | None, texts: Mapping[str, str],
+                reason: str | None = None) -> dict:
+    """Validate and save a source (new when ``original`` is None); InputError names the field."""
+    dataset.require("edit")
+    result = build_source(original, texts)
+    ident = result.record.get("id")
+    if not result.ok:
+        name, reason_text = next(iter(result.problems.items()))
+        raise InputError(reason_text, record=ident, field=name)
+    if original is None and ident in dataset.ids("sources"):
+        raise InputError("a source with this id exists already", record=ident, field="id")
+    expected = None if original is None else int(original.get("revision", 0))
+    why = reason or (f"source {ident} added" if original is None else f"source {ident} edited")
+    return dataset.save("sources", result.record, expected_revision=expected, reason=why)

@@ -1,0 +1,195 @@
+"""Flags: questions raised about values. Raise, comment, resolve; who and when are shown.
+
+Saves go through ``tablekeeper.flags`` (roles enforced there: reviewers may flag and comment, stewards
+also resolve).
+"""
+
+from __future__ import annotations
+
+from typing import ClassVar
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding, BindingType
+from textual.widgets import Footer, Static
+
+from .. import flags as core_flags
+from ..text import printable
+from .dialogs import TextDialog
+from .literal import lit
+from .record_screen import flag_field
+from .vtable import Column, VirtualTable
+from .widgets import InfoBar, TkScreen
+
+
+def _field_path(field: str | None) -> str | None:
+    from ..editing import field_path
+
+    return field_path(field)
+
+
+class FlagsScreen(TkScreen):
+    """Flags of the dataset (or of one species): open ones first."""
+
+    ENTRY = "flags"
+    IS_LIST = True
+    TITLE_TEXT = "Flags"
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape", "back", "Back", id="flags.back"),
+        Binding("n", "new", "New flag", id="flags.new"),
+        Binding("c", "comment", "Comment", id="flags.comment"),
+        Binding("v", "resolve", "Resolve", id="flags.resolve"),
+        Binding("a", "toggle_all", "Open/all", id="flags.toggle_all"),
+    ]
+
+    def __init__(self, species: str | None = None) -> None:
+        super().__init__()
+        self.only_species = species
+        self.show_resolved = True
+        self.items: list[dict] = []
+        if species:
+            self.TITLE_TEXT = f"Flags of {species}"
+
+    def compose(self) -> ComposeResult:
+        yield InfoBar()
+        yield VirtualTable(id="flags-table")
+        yield Static("", id="flag-detail", markup=False)
+        yield Footer()
+
+    def on_mount(self) -> None:
+        self.table.focus()
+        self.data_changed()
+
+    @property
+    def table(self) -> VirtualTable:
+        return self.query_one("#flags-table", VirtualTable)
+
+    @property
+    def current(self) -> dict | None:
+        i = self.table.cursor
+        return self.items[i] if 0 <= i < len(self.items) else None
+
+    @property
+    def species_id(self) -> str | None:
+        cur = self.current
+        return self.only_species or (str(cur.get("species")) if cur else None)
+
+    def data_changed(self) -> None:
+        self.update_bar()
+        if not self.is_mounted:
+            return
+        snap = self.tk.snapshot
+        keep = (self.current or {}).get("id")
+        items = [f for f in (snap.flags.values() if snap else []) if isinstance(f, dict)]
+        if self.only_species:
+            items = [f for f in items if f.get("species") == self.only_species]
+        if not self.show_resolved:
+            items = [f for f in items if f.get("status") == "open"]
+        items.sort(key=lambda f: str(f.get("raised_at", "")), reverse=True)
+        items.sort(key=lambda f: f.get("status") != "open")
+        self.items = items
+        cursor = next((i for i, f in enumerate(items) if f.get("id") == keep), 0)
+        cols = [Column("status", ("status",), 8), Column("b", ("!",), 1), Column("species", ("species",), 14),
+                Column("field", ("field",), 9), Column("by", ("by",), 10), Column("at", ("raised at",), 20),
+                Column("note", ("note",), 60)]
+
+        def cells(i: int) -> list[str]:
+            f = items[i]
+            return [printable(f.get("status", "")), "!" if f.get("blocking") else " ",
+                    printable(f.get("species", "")), printable(f.get("field", "")),
+                    printable(f.get("raised_by", "")), printable(f.get("raised_at", "")),
+                    printable(f.get("note", ""))]
+
+        self.table.empty_text = "no flags" if self.show_resolved else "no open flags"
+        self.table.set_data(cols, len(items), cells,
+                            lambda i: None if items[i].get("status") == "open" else "dim", cursor=cursor)
+        self._detail()
+
+    def _detail(self) -> None:
+        f = self.current
+        detail = self.query_one("#flag-detail", Static)
+        if f is None:
+            detail.update(lit("n: raise a flag on the species you are on"))
+            return
+        lines = [f"{f.get('status')}{' blocking' if f.get('blocking') else ''} flag {f.get('id')} on "
+                 f"{f.get('species')} {f.get('field')}, raised by {f.get('raised_by')} "
+                 f"at {f.get('raised_at')}",
+                 f"note: {f.get('note')}"]
+        for c in f.get("comments") or []:
+            if isinstance(c, dict):
+                lines.append(f"  {c.get('by')} at {c.get('at')}: {c.get('text')}")
+        if f.get("status") == "resolved":
+            lines.append(f"resolved by {f.get('resolved_by')} at {f.get('resolved_at')}"
+                         + (f": {f.get('resolution')}" if f.get("resolution") else ""))
+        detail.update(lit("\n".join(lines)))
+
+    @on(VirtualTable.RowHighlighted, "#flags-table")
+    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
+        self._detail()
+
+    @on(VirtualTable.RowSelected, "#flags-table")
+    def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
+        f = self.current
+        if f and isinstance(f.get("species"), str):
+            self.tk.open_record(f["species"], _field_path(f.get("field")))
+
+    def action_back(self) -> None:
+        self.dismiss()
+
+    def action_toggle_all(self) -> None:
+        self.show_resolved = not self.show_resolved
+        self.data_changed()
+
+    def action_new(self) -> None:
+        ident = self.species_id or self.tk.current_species
+        if not ident:
+            self.tk.notify("open a species (or highlight one in the table) to flag it", markup=False)
+            return
+        cur = self.current
+        field = cur.get("field") if cur and cur.get("species") == ident else None
+        self.tk.raise_flag_dialog(ident, flag_field(field) if field else None)
+
+    def action_comment(self) -> None:
+        f = self.current
+        if f is None:
+            return
+        if not self.tk.may("comment"):
+            self.tk.notify(f"user {self.tk.user} may not comment (steward or reviewer role)",
+                           severity="error", markup=False)
+            return
+        ds = self.tk.dataset
+        flag_id, rev = str(f.get("id")), int(f.get("revision", 0))
+
+        def answered(text: str | None) -> None:
+            if text:
+                self.tk.run_disk(lambda: core_flags.comment(ds, flag_id, text, expected_revision=rev),
+                                 lambda _: self._saved("comment added"))
+
+        self.app.push_screen(TextDialog(f"Comment on flag {flag_id}", "Comment:",
+                                        body=str(f.get("note", ""))), answered)
+
+    def action_resolve(self) -> None:
+        f = self.current
+        if f is None:
+            return
+        if f.get("status") != "open":
+            self.tk.notify("this flag is already resolved", markup=False)
+            return
+        if not self.tk.may("resolve"):
+            self.tk.notify(f"user {self.tk.user} may not resolve flags (the steward role resolves)",
+                           severity="error", markup=False)
+            return
+        ds = self.tk.dataset
+        flag_id, rev = str(f.get("id")), int(f.get("revision", 0))
+
+        def answered(text: str | None) -> None:
+            if text is not None:
+                self.tk.run_disk(lambda: core_flags.resolve(ds, flag_id, text, expected_revision=rev),
+                                 lambda _: self._saved("flag resolved"))
+
+        self.app.push_screen(TextDialog(f"Resolve flag {flag_id}", "Resolution (what was done):",
+                                        body=str(f.get("note", "")), required=False), answered)
+
+    def _saved(self, what: str) -> None:
+        self.tk.notify(what, markup=False)
+        self.tk.reload()

@@ -1,0 +1,98 @@
+"""Child processes of the reliability tests: writers that race each other or are killed mid-save.
+
+Run as ``python child.py MODE ARGS...``. The environment variable ``TK_SAFETY`` (e.g. ``lock=0``)
+turns protections of ``tablekeeper.store.SAFETY`` off, for the control runs that show a test would
+catch their absence. Each mode prints JSON lines on stdout, flushed at once, so that a parent that
+kills the child knows exactly how far it got.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import sys
+import time
+
+from tablekeeper import store
+from tablekeeper.errors import ConflictError
+from tablekeeper.store import Dataset
+
+
+def _apply_safety() -> None:
+    for part in filter(None, os.environ.get("TK_SAFETY", "").split(",")):
+        name, value = part.split("=")
+        setattr(store.SAFETY, name, value == "1")
+
+
+def _say(obj: dict) -> None:
+    sys.stdout.write(json.dumps(obj) + "\n")
+    sys.stdout.flush()
+
+
+def counter(root: str, ident: str, attempts: int, go: str) -> None:
+    """Read-modify-write ``attempts`` times: notes ``count=N`` becomes ``count=N+1``."""
+    ds = Dataset(root)
+    while not os.path.exists(go):  # a barrier, so that all writers start together
+        time.sleep(0.001)
+    accepted = conflicts = 0
+    others: list[str] = []
+    for _ in range(attempts):
+        rec = ds.load("species", ident)
+        n = int(rec["notes"].split("=")[1])
+        new = dict(rec, notes=f"count={n + 1}")
+        try:
+            ds.save("species", new, expected_revision=rec["revision"], reason="counter")
+            accepted += 1
+        except ConflictError:
+            conflicts += 1
+        except Exception as exc:  # counted and reported: the test asserts there are none
+            others.append(f"{type(exc).__name__}: {exc}")
+    _say({"accepted": accepted, "conflicts": conflicts, "others": others})
+
+
+def big_record(ident: str, revision: int, points: int) -> dict:
+    """A species record of about 50 bytes per tabulated point whose content is a function of its
+    revision, so that the parent can rebuild every version the child may have written."""
+    pts = [[100.0 + i * 0.25, 20.0 + ((revision * 7919 + i * 31) % 100000) / 1000.0] for i in range(points)]
+    return {"id": ident, "formula": "C8H18", "phase": "l", "charge": 0, "status": "draft",
+            "name": f"large record r{revision}", "properties": {},
+            "cp_model": {"kind": "tabulated", "points": pts}}
+
+
+def bigsave(root: str, ident: str, points: int) -> None:
+    """Save new versions of one large record in a loop until killed. Prints ``begin`` before each
+    save and ``done`` after it."""
+    ds = Dataset(root)
+    rev = ds.load("species", ident)["revision"]
+    _say({"ready": rev})
+    while True:
+        _say({"begin": rev + 1})
+        rec = big_record(ident, rev + 1, points)
+        ds.save("species", rec, expected_revision=rev, reason="large save")
+        rev += 1
+        _say({"done": rev})
+
+
+def saver(root: str, ident: str, note: str) -> None:
+    """One save of an existing species (shared-folder tests run this as another OS user)."""
+    ds = Dataset(root)
+    rec = ds.load("species", ident)
+    ds.save("species", dict(rec, notes=note), expected_revision=rec["revision"])
+    new = {"id": f"{ident}-{os.getuid()}", "formula": "He", "phase": "g", "charge": 0, "status": "draft",
+           "properties": {}}
+    ds.save("species", new, expected_revision=None)
+    _say({"saved": [ident, new["id"]]})
+
+
+if __name__ == "__main__":
+    _apply_safety()
+    mode, args = sys.argv[1], sys.argv[2:]
+    if mode == "counter":
+        counter(args[0], args[1], int(args[2]), args[3])
+    elif mode == "bigsave":
+        bigsave(args[0], args[1], int(args[2]))
+    elif mode == "saver":
+        saver(args[0], args[1], args[2])
+    else:
+        raise SystemExit(f"unknown mode {mode}")
+    sys.stdout.flush()
