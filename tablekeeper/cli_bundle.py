@@ -74,8 +74,8 @@ def cmd_release(args: argparse.Namespace) -> int:
             _err(f"  {printable(reason)}")
         return Exit.FOUND
     c = done.counts
-    _out(f"released {printable(done.folder.name)}: {c.get('species', 0)} species, {c.get('values', 0)} values, "
-         f"{len(done.gate.accepted)} findings accepted")
+    _out(f"released {printable(done.folder.name)}: {c.get('species', 0)} species, {c.get('values', 0)} "
+         f"values, {len(done.gate.accepted)} findings accepted")
     _out(f"  folder  {printable(done.folder)}")
     _out(f"  archive {printable(done.archive)}  {done.record['archive_digest']}")
     _out(f"  datapackage.json {done.record['digest']}")
@@ -127,7 +127,8 @@ def register(sub) -> None:
                        formatter_class=fmt)
     s.add_argument("dataset")
     s.add_argument("--version", required=True, metavar="X.Y.Z", help="the new version; must increase")
-    s.add_argument("--out", metavar="DIR", help="folder for the bundle and its archive (default: current folder)")
+    s.add_argument("--out", metavar="DIR",
+                   help="folder for the bundle and its archive (default: the current folder)")
     s.add_argument("--note", metavar="TEXT", help="a note for the release record and the change log")
     s.add_argument("--allow-warnings", action="store_true",
                    help="release despite warnings; they are listed in findings.csv and the descriptor")

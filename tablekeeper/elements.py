@@ -15,6 +15,11 @@ carries its own reference species overrides them. The sources:
 * ``NBS-1982``: D. D. Wagman et al., *The NBS tables of chemical thermodynamic properties*,
   J. Phys. Chem. Ref. Data 11, Suppl. 2 (1982) (p° = 1 bar), for elements CODATA does not cover.
   NBS gives no uncertainties; the floor ``ELEMENT_S_FLOOR`` applies to them.
+* ``JANAF-1998``: M. W. Chase, *NIST-JANAF Thermochemical Tables*, 4th ed., J. Phys. Chem. Ref. Data
+  Monograph 9 (1998), for Sr and Ba, where the NBS values recalled (52.3 and 62.8) disagree with
+  the later evaluations that current tables use. These two are not from memory: they are implied by
+  the M(g) rows of the JANAF table that the ``chemicals`` package carries, S°(cr) = S°(g) − (ΔfH° −
+  ΔfG°)/T (tests/checks/test_elements.py recomputes them).
 
 It also owns ``translational_entropy`` (Sackur–Tetrode), computed from the CODATA 2018 constants and
 never typed in as numbers per gas, and the entropy of the ideal electron gas that follows from it,
@@ -95,9 +100,10 @@ CITATIONS: dict[str, str] = {
     "CODATA-1989": "CODATA Key Values for Thermodynamics (Cox, Wagman & Medvedev, 1989), from memory",
     "NBS-1982": "NBS tables of chemical thermodynamic properties (Wagman et al., J. Phys. Chem. Ref. "
                 "Data 11, Suppl. 2, 1982), from memory",
+    "JANAF-1998": "NIST-JANAF Thermochemical Tables, 4th ed. (Chase, 1998), as implied by its M(g) rows",
 }
 
-_C, _N = "CODATA-1989", "NBS-1982"
+_C, _N, _J = "CODATA-1989", "NBS-1982", "JANAF-1998"
 
 # element, reference species, atoms per molecule, S° J/(mol·K), u, source  (from memory, see above)
 _TABLE: tuple[tuple[str, str, int, float, float | None, str], ...] = (
@@ -144,8 +150,8 @@ _TABLE: tuple[tuple[str, str, int, float, float | None, str], ...] = (
     ("Cr", "Cr(cr)", 1, 23.77, None, _N),
     ("Mn", "Mn(cr, alpha)", 1, 32.01, None, _N),
     ("Co", "Co(cr)", 1, 30.04, None, _N),
-    ("Ba", "Ba(cr)", 1, 62.8, None, _N),
-    ("Sr", "Sr(cr)", 1, 52.3, None, _N),
+    ("Ba", "Ba(cr)", 1, 62.48, None, _J),
+    ("Sr", "Sr(cr)", 1, 55.69, None, _J),
     ("V", "V(cr)", 1, 28.91, None, _N),
     ("Mo", "Mo(cr)", 1, 28.66, None, _N),
     ("W", "W(cr)", 1, 32.64, None, _N),

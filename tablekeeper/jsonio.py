@@ -49,12 +49,27 @@ def _no_constant(name: str) -> Any:
     raise ValueError(f"{name} is not a number JSON allows")
 
 
+def _why(raw: bytes, exc: orjson.JSONDecodeError) -> str:
+    """orjson's reason, made specific where it is vague: bad UTF-8 and the constants JSON lacks."""
+    if not raw.startswith(b"\xef\xbb\xbf"):
+        try:
+            raw.decode("utf-8")
+        except UnicodeDecodeError as bad:
+            return f"not valid UTF-8 at byte {bad.start}"
+    doc, pos = getattr(exc, "doc", None), getattr(exc, "pos", None)
+    if isinstance(doc, str) and isinstance(pos, int):
+        for name in ("-Infinity", "NaN", "Infinity"):
+            if doc.startswith(name, pos) or (name[0] == "-" and doc.startswith(name, max(pos - 1, 0))):
+                return f"{name} is not a number JSON allows, at line {exc.lineno} column {exc.colno}"
+    return str(exc)
+
+
 def loads(raw: bytes, *, file: str | None = None) -> Any:
     """Parse JSON strictly; raise DamagedFileError naming the file and what is wrong."""
     try:
         obj = orjson.loads(raw)
     except orjson.JSONDecodeError as exc:
-        raise DamagedFileError(f"not valid JSON ({exc})", file=file) from None
+        raise DamagedFileError(f"not valid JSON ({_why(raw, exc)})", file=file) from None
     if isinstance(obj, dict | list) and orjson.dumps(obj, option=_OPTS) != raw:
         # Not canonical: hand-edited, or hiding a duplicate key. Re-read with the strict hook.
         try:

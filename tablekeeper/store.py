@@ -414,15 +414,40 @@ class Dataset:
         except FileNotFoundError:
             return 0
 
-    def _undo(self, files: list[tuple[Path, bytes | None]], journal_size: int) -> None:
+    @staticmethod
+    def _keep(path: Path) -> Path | bytes | None:
+        """Keep the version a save replaces until the save is complete: a hard link (it needs no free
+        space to put back, which matters when the disk is full), or the bytes where links fail. The
+        link is named as a temporary file, so recover() removes one left by a killed process."""
+        if not path.exists():
+            return None
+        keep = path.parent / f".{path.name}{_TMP_MARK}keep-{os.getpid()}-{secrets.token_hex(4)}"
+        try:
+            os.link(path, keep)
+            return keep
+        except OSError:
+            return path.read_bytes()
+
+    @staticmethod
+    def _forget(kept: list[tuple[Path, Path | bytes | None]]) -> None:
+        for _, keep in kept:
+            if isinstance(keep, Path):
+                keep.unlink(missing_ok=True)
+
+    def _undo(self, kept: list[tuple[Path, Path | bytes | None]], journal_size: int) -> None:
         """After a save failed past its rename (a folder fsync, the journal append): put the files and
         the journal back as they were, so that an error reported to the user means nothing changed."""
-        for path, raw in files:
+        for path, keep in kept:
             try:
-                if raw is None:
+                if keep is None:
                     path.unlink(missing_ok=True)
-                elif not path.is_file() or path.read_bytes() != raw:
-                    atomic_write(path, raw)
+                elif isinstance(keep, Path):
+                    if path.exists() and os.path.samefile(keep, path):
+                        keep.unlink()  # failed before the rename; rename() of two links is a no-op
+                    else:
+                        os.replace(keep, path)
+                elif not path.is_file() or path.read_bytes() != keep:
+                    atomic_write(path, keep)
             except OSError:
                 pass  # the original error is raised; a disk this broken is reported by the next check
         try:
@@ -452,7 +477,8 @@ class Dataset:
             new = dict(record)
             if kind != "releases":
                 new["revision"] = found + 1
-            undo = [(path, path.read_bytes() if old is not None else None)], self._journal_size()
+            kept = [(path, self._keep(path))]
+            size = self._journal_size()
             try:
                 atomic_write(path, jsonio.dumps(new))
                 changes = field_changes(old, new)
@@ -460,8 +486,9 @@ class Dataset:
                                     revision=new.get("revision", 1), changes=changes, reason=reason,
                                     _locked=True)
             except BaseException:
-                self._undo(*undo)
+                self._undo(kept, size)
                 raise
+            self._forget(kept)
         return new
 
     def save_many(self, kind: str, records: Iterable[tuple[dict, int | None]], *, reason: str | None,
@@ -482,12 +509,15 @@ class Dataset:
                 new = dict(record, revision=found + 1)
                 plans.append((path, old, new))
             staged: list[tuple[Path, Path]] = []
-            undo = [(p, p.read_bytes() if o is not None else None) for p, o, _ in plans], self._journal_size()
+            kept = [(p, self._keep(p)) for p, _, _ in plans]
+            size = self._journal_size()
             try:
                 for path, _old, new in plans:
                     tmp = path.parent / f".{path.name}{_TMP_MARK}{os.getpid()}-{secrets.token_hex(4)}"
                     staged.append((tmp, path))
                     atomic_write(tmp, jsonio.dumps(new))  # fsynced under its own temporary name
+                    if _old is not None:  # keep the mode of the file it replaces, as save() does
+                        os.chmod(tmp, path.stat().st_mode & 0o7777)
                 for tmp, path in staged:
                     os.replace(tmp, path)
                 if SAFETY.fsync and staged:
@@ -499,8 +529,9 @@ class Dataset:
             except BaseException:
                 for tmp, _ in staged:
                     tmp.unlink(missing_ok=True)
-                self._undo(*undo)
+                self._undo(kept, size)
                 raise
+            self._forget(kept)
         return [new for _, _, new in plans]
 
     def delete(self, kind: str, ident: str, *, expected_revision: int, reason: str | None = None) -> None:
@@ -513,7 +544,8 @@ class Dataset:
             found = int(old.get("revision", 0))
             if found != expected_revision:
                 raise ConflictError(f"{kind}/{ident}", expected_revision, found, old, None)
-            undo = [(path, path.read_bytes())], self._journal_size()
+            kept = [(path, self._keep(path))]
+            size = self._journal_size()
             try:
                 path.unlink()
                 if SAFETY.fsync:
@@ -521,8 +553,9 @@ class Dataset:
                 self.append_journal("delete", f"{kind}/{ident}", revision=found,
                                     changes=field_changes(old, None), reason=reason, _locked=True)
             except BaseException:
-                self._undo(*undo)
+                self._undo(kept, size)
                 raise
+            self._forget(kept)
 
     def save_meta(self, meta: dict, reason: str | None = None) -> None:
         self.require("edit")

@@ -85,4 +85,5 @@ def errors(kind: str, document: Any, *, fast: bool = True) -> list[tuple[str, st
 
 
 def _short(message: str) -> str:
-    return message if len(message) <= 200 else message[:197] + "..."
+    # jsonschema puts the offending value first and the reason last ("'[[[…' is too long"): keep both.
+    return message if len(message) <= 200 else message[:120] + " ... " + message[-75:]

@@ -12,6 +12,7 @@ Markdown of a release's ``CHANGES.md``.
 from __future__ import annotations
 
 import os
+import re
 import shutil
 import tempfile
 from collections.abc import Iterator, Mapping
@@ -32,6 +33,7 @@ from .verify import is_archive, load_verified
 ATTRIBUTES = ("formula", "phase", "form", "charge", "name", "status", "reference_state", "cas")
 _DIFF_TABLES = ("species", "values", "cp_models", "sources")
 BUMPS = ("none", "patch", "minor", "major")
+_VERSION = re.compile(r"(0|[1-9][0-9]{0,5})\.(0|[1-9][0-9]{0,5})\.(0|[1-9][0-9]{0,5})")
 
 
 @dataclass
@@ -63,9 +65,9 @@ class Snapshot:
     @classmethod
     def from_records(cls, label: str, species: Mapping[str, Mapping], sources: Mapping[str, Mapping],
                      version: str | None = None) -> Snapshot:
-        return cls.from_rows(label, version, {"species": species_rows(species), "values": values_rows(species),
-                                              "cp_models": cp_model_rows(species),
-                                              "sources": source_rows(sources)})
+        rows = {"species": species_rows(species), "values": values_rows(species),
+                "cp_models": cp_model_rows(species), "sources": source_rows(sources)}
+        return cls.from_rows(label, version, rows)
 
     def display(self, ident: str) -> str:
         r = self.species.get(ident) or {}
@@ -98,7 +100,8 @@ def open_side(spec: str, other: str | None = None) -> Iterator[Snapshot]:
     ``git:REV`` (the dataset of the other operand, else of the current folder, as it stood at REV)."""
     if spec.startswith("git:"):
         rev = spec[4:]
-        base = Path(other) if other and not other.startswith("git:") and _is_dataset(Path(other)) else Path.cwd()
+        named = other is not None and not other.startswith("git:") and _is_dataset(Path(other))
+        base = Path(other) if named and other is not None else Path.cwd()
         if not _is_dataset(base):
             raise InputError(f"{spec} needs a dataset: give one as the other operand or run in its folder")
         tmp = Path(tempfile.mkdtemp(prefix="tablekeeper-git-"))
@@ -240,9 +243,11 @@ class Diff:
 
     @property
     def bump_reason(self) -> str:
-        return {"major": "species removed or the bundle format changed" if self.removed and self.schema_changes
-                else ("species removed" if self.removed else "the bundle format changed"),
-                "minor": "species added", "patch": "values or other fields corrected",
+        if self.bump == "major":
+            if self.removed and self.schema_changes:
+                return "species removed and the bundle format changed"
+            return "species removed" if self.removed else "the bundle format changed"
+        return {"minor": "species added", "patch": "values or other fields corrected",
                 "none": "nothing changed"}[self.bump]
 
     @property
@@ -255,7 +260,8 @@ class Diff:
 
     def to_json(self) -> dict[str, Any]:
         return {
-            "old": self.old, "new": self.new, "old_version": self.old_version, "new_version": self.new_version,
+            "old": self.old, "new": self.new,
+            "old_version": self.old_version, "new_version": self.new_version,
             "added": [{"species": i, "label": lab} for i, lab in self.added],
             "removed": [{"species": i, "label": lab} for i, lab in self.removed],
             "changed": [{"species": c.species, "label": c.label, "changes": [x.to_json() for x in c.changes]}
@@ -268,8 +274,8 @@ class Diff:
 
     def text(self) -> str:
         """Plain text for the command line (data text not yet made printable: the face does that)."""
-        lines = [f"{self.old} → {self.new}",
-                 f"species: {len(self.added)} added, {len(self.removed)} removed, {len(self.changed)} changed"]
+        counts = f"{len(self.added)} added, {len(self.removed)} removed, {len(self.changed)} changed"
+        lines = [f"{self.old} → {self.new}", f"species: {counts}"]
         for ident, label in self.added:
             lines.append(f"+ {ident} {label}")
         for ident, label in self.removed:
@@ -295,10 +301,7 @@ def next_version(version: str, bump: str) -> str | None:
 
 def parse_version(text: str) -> tuple[int, int, int]:
     """X.Y.Z → (X, Y, Z); InputError for anything else (no prerelease or build labels)."""
-    import re
-
-    if not isinstance(text, str) or not re.fullmatch(r"(0|[1-9][0-9]{0,5})\.(0|[1-9][0-9]{0,5})\.(0|[1-9][0-9]{0,5})",
-                                                     text):
+    if not isinstance(text, str) or not _VERSION.fullmatch(text):
         raise InputError(f"{str(text)[:40]!r} is not a version of the form X.Y.Z (for example 1.4.0)",
                          field="version")
     a, b, c = text.split(".")
@@ -317,7 +320,8 @@ def compare(old: Snapshot, new: Snapshot) -> Diff:
             d.changed.append(SpeciesChanges(ident, new.display(ident), changes))
     d.sources_added = sorted(set(new.sources) - set(old.sources))
     d.sources_removed = sorted(set(old.sources) - set(new.sources))
-    d.sources_changed = sorted(i for i in set(old.sources) & set(new.sources) if old.sources[i] != new.sources[i])
+    d.sources_changed = sorted(i for i in set(old.sources) & set(new.sources)
+                               if old.sources[i] != new.sources[i])
     for t in TABLES:
         a, b = old.columns.get(t.name), new.columns.get(t.name)
         if a != b:
@@ -432,7 +436,8 @@ def markdown(d: Diff | None, *, name: str, version: str, created: str, previous:
         if d.changed:
             out += ["", "### Changed species"]
             for c in d.changed:
-                out += ["", f"#### `{c.species}` {md(c.label)}", ""] + [f"- {md(x.text())}" for x in c.changes]
+                out += ["", f"#### `{c.species}` {md(c.label)}", ""]
+                out += [f"- {md(x.text())}" for x in c.changes]
         src = [(w, ids) for w, ids in (("added", d.sources_added), ("removed", d.sources_removed),
                                        ("changed", d.sources_changed)) if ids]
         if src:

@@ -421,8 +421,9 @@ def thermo_rows(species: Mapping[str, Mapping], step: float = THERMO_STEP_K,
             frame = derived_table(rec, default_grid(model, step))
         except InputError:
             continue
-        arrays = [frame[c].to_numpy(dtype="float64").tolist() for c in cols]
-        for values in zip(*arrays, strict=True):
+        block = frame.to_numpy(dtype="float64") if tuple(frame.columns) == cols else \
+            frame.loc[:, list(cols)].to_numpy(dtype="float64")
+        for values in block.tolist():
             row = {"species": ident}
             row.update(zip(cols, values, strict=True))
             yield row
@@ -469,12 +470,50 @@ def _header_line(table: Table) -> str:
     return ",".join(_quoted(c.name) for c in table.columns) + "\n"
 
 
+def _fast_cell(column: Column) -> Callable[[Any], str | None]:
+    """A formatter for the common cases of a column (None when format_cell must decide): a float or
+    None in a number column, a plain str or None in a text column. The slow path raises the errors."""
+    if column.type == "number":
+        isfinite = math.isfinite
+
+        def number(v: Any) -> str | None:
+            if v is None:
+                return ""
+            if type(v) is float and isfinite(v):
+                return repr(v)
+            return None
+
+        return number
+    if column.type == "string":
+        def text(v: Any) -> str | None:
+            if v is None:
+                return ""
+            if type(v) is str and v and v[0] not in FORBIDDEN_LEAD:
+                return _quoted(v)
+            return None
+
+        return text
+    return lambda v: None
+
+
+_FAST: dict[str, list[tuple[str, Column, Callable[[Any], str | None]]]] = {}
+
+
 def encode_line(table: Table, row: Row) -> str:
     """One CSV line of a row, with its LF."""
-    key = table.primary_key or (table.columns[0].name,)
-    record = "/".join(str(row.get(k)) for k in key)
-    return ",".join(_quoted(format_cell(row.get(c.name), c, file=table.path, record=record))
-                    for c in table.columns) + "\n"
+    plan = _FAST.get(table.name)
+    if plan is None:
+        plan = _FAST[table.name] = [(c.name, c, _fast_cell(c)) for c in table.columns]
+    cells = []
+    for name, col, fast in plan:
+        v = row.get(name)
+        text = fast(v)
+        if text is None:
+            key = table.primary_key or (table.columns[0].name,)
+            record = "/".join(str(row.get(k)) for k in key)
+            text = _quoted(format_cell(v, col, file=table.path, record=record))
+        cells.append(text)
+    return ",".join(cells) + "\n"
 
 
 def encode_rows(table: Table, rows: Iterable[Row]) -> bytes:

@@ -92,8 +92,8 @@ class Gate:
         """One line per thing that blocks, errors first."""
         out = [f"error {f.check} {f.species or ''} {f.field or ''}: {f.message}".replace("  ", " ")
                for f in self.errors]
-        out += [f"open blocking flag {fl.get('id')} on {fl.get('species')} {fl.get('field')}: {fl.get('note')}"
-                for fl in self.blocking_flags]
+        out += [f"open blocking flag {fl.get('id')} on {fl.get('species')} {fl.get('field')}: "
+                f"{fl.get('note')}" for fl in self.blocking_flags]
         if self.warnings and not self.allow_warnings:
             out += [f"warning {f.check} {f.species or ''} {f.field or ''}: {f.message}".replace("  ", " ")
                     for f in self.warnings]
@@ -163,8 +163,9 @@ def check_version(dataset: Dataset, version: str) -> str | None:
     new = parse_version(version)
     history = released(dataset)
     if version in history:
-        raise InputError(f"version {version} was released on {history[version].get('created')}; a version is "
-                         "never reused", file=str(dataset.root / "releases" / f"{version}.json"), field="version")
+        raise InputError(f"version {version} was released on {history[version].get('created')}; a version "
+                         "is never reused", file=str(dataset.root / "releases" / f"{version}.json"),
+                         field="version")
     last = max(history, key=parse_version) if history else None
     if last is not None and new <= parse_version(last):
         raise InputError(f"version {version} does not increase over the last release {last}", field="version")
@@ -180,7 +181,8 @@ def release_time() -> str:
         t = int(sde)
         when = _dt.datetime.fromtimestamp(t, _dt.UTC)
     except (ValueError, OverflowError, OSError):
-        raise InputError(f"SOURCE_DATE_EPOCH={sde[:40]!r} is not a time in whole seconds since 1970") from None
+        raise InputError(f"SOURCE_DATE_EPOCH={sde[:40]!r} is not a time in whole seconds since 1970"
+                         ) from None
     return when.isoformat().replace("+00:00", "Z")
 
 
@@ -272,7 +274,8 @@ class Released:
         got = "major" if new[0] > old[0] else "minor" if new[1] > old[1] else "patch"
         order = ("none", "patch", "minor", "major")
         if order.index(got) < order.index(want):
-            return f"the changes since {self.previous} call for a {want} version step ({self.diff.bump_reason})"
+            return (f"the changes since {self.previous} call for a {want} version step "
+                    f"({self.diff.bump_reason})")
         return None
 
 
@@ -346,7 +349,8 @@ def release(dataset: Dataset, version: str, *, out: str | os.PathLike[str] | Non
                              file=f"releases/{version}.json")
         say("publishing", 0.95)
         if tag:
-            gitsrc.create_tag(dataset.root, tag, commit, f"{name} {version}" + (f"\n\n{note}" if note else ""))
+            message = f"{name} {version}" + (f"\n\n{note}" if note else "")
+            gitsrc.create_tag(dataset.root, tag, commit, message)
             tagged = True
         _mode_for_sharing(bundle_dir)
         if os.path.lexists(folder):

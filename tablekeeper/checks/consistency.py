@@ -11,6 +11,8 @@ A value that is missing, NaN or not a number is skipped (the schema check report
 
 from __future__ import annotations
 
+import itertools
+import re
 from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import Any
@@ -113,25 +115,30 @@ def rounding(frame: pd.DataFrame, fld: str) -> np.ndarray:
 
 # -- composition and element entropies ------------------------------------------------------------------
 
-_ELEMENT_RE = r"([A-Z][a-z]?)(\d*)"
+_ELEMENT_RE = re.compile(r"([A-Z][a-z]?)(\d*)")
 
 
 def composition(ctx: Context) -> pd.DataFrame:
     """Long table of element counts: columns ``species``, ``element``, ``count`` (from the Hill formula).
 
-    Built with one vectorised regular-expression pass over the Hill formulas the frame already holds.
+    Each distinct Hill formula is split once with a regular expression (the frame already holds the
+    parsed, normalised formula); the rows per species are then laid out with array operations.
     """
 
     def build() -> pd.DataFrame:
         hill = ctx.frame["hill"].dropna().astype(str)
-        if hill.empty:
-            return pd.DataFrame({"species": pd.Series(dtype=object), "element": pd.Series(dtype=object),
-                                 "count": pd.Series(dtype=float)})
-        ex = hill.str.extractall(_ELEMENT_RE)
-        counts = pd.to_numeric(ex[1].replace("", "1"), errors="coerce").fillna(1.0)
-        out = pd.DataFrame({"species": ex.index.get_level_values(0), "element": ex[0].to_numpy(),
-                            "count": counts.to_numpy(dtype=float)})
-        return out.groupby(["species", "element"], as_index=False, sort=False)["count"].sum()
+        parts = {h: _ELEMENT_RE.findall(h) for h in pd.unique(hill)}
+        els = {h: [e for e, _ in p] for h, p in parts.items()}
+        cnt = {h: [float(n) if n else 1.0 for _, n in p] for h, p in parts.items()}
+        lengths = hill.map({h: len(p) for h, p in parts.items()}).to_numpy(dtype=int)
+        out = pd.DataFrame({
+            "species": np.repeat(hill.index.to_numpy(), lengths),
+            "element": list(itertools.chain.from_iterable(hill.map(els))),
+            "count": np.fromiter(itertools.chain.from_iterable(hill.map(cnt)), dtype=float,
+                                 count=int(lengths.sum())),
+        })
+        # Hill formulas name each element once, so (species, element) is already unique.
+        return out
 
     return _cache(ctx, "composition", build)
 
@@ -158,20 +165,22 @@ def element_entropies(ctx: Context) -> dict[str, ElementEntropy]:
         out[ELECTRON] = ElementEntropy(_el.ELECTRON_S298, 0.0,
                                        "the ideal electron gas (Sackur–Tetrode, g = 2)")
         fr = ctx.frame
-        ok = (fr["hill"].notna() & np.isfinite(fr["S298"]) & (fr["S298"] > 0) & np.isfinite(fr["atoms"])
-              & (fr["atoms"] >= 1) & (fr["formula_charge"] == 0))
+        meta = ctx.meta if isinstance(ctx.meta, dict) else {}
+        refs = meta.get("element_references")
+        refs = refs if isinstance(refs, dict) else {}
+        named = fr.index.isin([v for v in refs.values() if isinstance(v, str)])
+        ok = ((fr["reference_state"].astype(bool) | named) & fr["hill"].notna() & np.isfinite(fr["S298"])
+              & (fr["S298"] > 0) & np.isfinite(fr["atoms"]) & (fr["atoms"] >= 1)
+              & (fr["formula_charge"] == 0))
         cand = fr.loc[ok, ["hill", "atoms", "S298", "u_S298", "reference_state"]]
         elem = cand["hill"].astype(str).str.rstrip("0123456789")
         single = elem.str.fullmatch(r"[A-Z][a-z]?")
         chosen: dict[str, str] = {}
         for ident in cand.index[single & cand["reference_state"].astype(bool)]:
             chosen.setdefault(elem[ident], ident)
-        meta = ctx.meta if isinstance(ctx.meta, dict) else {}
-        refs = meta.get("element_references")
-        if isinstance(refs, dict):
-            for el, ident in refs.items():
-                if isinstance(ident, str) and ident in cand.index and single[ident] and elem[ident] == el:
-                    chosen[el] = ident  # the explicit mapping wins over the reference_state mark
+        for el, ident in refs.items():
+            if isinstance(ident, str) and ident in cand.index and single[ident] and elem[ident] == el:
+                chosen[el] = ident  # the explicit mapping wins over the reference_state mark
         for el, ident in chosen.items():
             row = cand.loc[ident]
             u = row["u_S298"] / row["atoms"] if np.isfinite(row["u_S298"]) else 0.0
@@ -227,55 +236,77 @@ class GibbsTerms:
         return expected, G - expected, self.k * np.sqrt(var)
 
 
+_GAS_ION_SKIP = ("gas-phase ion: ΔfG° is not checked because dataset.json sets no electron_convention "
+                 "\"electron-gas\" (a gas ion's ΔfS° depends on the convention for the electron)")
+
+
 def gibbs_terms(ctx: Context) -> GibbsTerms:
     def build() -> GibbsTerms:
         fr = ctx.frame
         have = (np.isfinite(fr["dfH298"]) & np.isfinite(fr["dfG298"]) & np.isfinite(fr["S298"])
                 & fr["hill"].notna())
         sub = fr.loc[have]
-        z = sub["formula_charge"].fillna(0.0)
-        skipped: dict[str, str] = {}
-        gas_ion = (sub["phase"] == "g") & (z != 0)
+        n = len(sub)
+        z = sub["formula_charge"].fillna(0.0).to_numpy(float)
+        phase = sub["phase"].to_numpy(object)
+        gas_ion = (phase == "g") & (z != 0)
+        aq_ion = (phase == "aq") & (z != 0)
         electron_gas = _electron_gas(ctx)
-        if not electron_gas:
-            for ident in sub.index[gas_ion]:
-                skipped[ident] = ("gas-phase ion: ΔfG° is not checked because dataset.json sets no "
-                                  "electron_convention \"electron-gas\" (a gas ion's ΔfS° depends on the "
-                                  "convention for the electron)")
         comp = composition(ctx)
-        comp = comp[comp["species"].isin(sub.index)]
-        # Conventions as extra "atoms": an aqueous ion gains −z hydrogen atoms (H+(aq) convention:
-        # ΔfS° = S° − Σn·S°(el) + (z/2)·S°(H2, g)); under the electron-gas convention a gas ion gains
-        # −z electrons (its formation releases z electrons into the ideal electron gas:
-        # ΔfS° = S° − Σn·S°(el) + z·S°(e−)).
-        aq_ion = (sub["phase"] == "aq") & (z != 0)
-        extra = [pd.DataFrame({"species": sub.index[aq_ion], "element": "H", "count": -z[aq_ion].to_numpy()})]
-        if electron_gas:
-            extra.append(pd.DataFrame({"species": sub.index[gas_ion], "element": ELECTRON,
-                                       "count": -z[gas_ion].to_numpy()}))
-        comp = pd.concat([comp, *extra], ignore_index=True)
-        comp = comp.groupby(["species", "element"], as_index=False, sort=False)["count"].sum()
+        pos = sub.index.get_indexer(comp["species"])
+        inside = pos >= 0
+        pos = pos[inside]
+        el = comp["element"].to_numpy(object)[inside]
+        cnt = comp["count"].to_numpy(float)[inside].copy()
+        # Conventions as extra "atoms". An aqueous ion gains −z hydrogen atoms (H+(aq) convention:
+        # ΔfS° = S° − Σn·S°(el) + (z/2)·S°(H2, g)); the count is netted with the ion's own hydrogen so
+        # that the element-entropy uncertainty adds as (n − z)·u, as it should for one shared value.
+        if aq_ion.any():
+            is_h = (el == "H") & aq_ion[pos]
+            cnt[is_h] -= z[pos[is_h]]
+            has_h = np.zeros(n, dtype=bool)
+            has_h[pos[is_h]] = True
+            add = np.flatnonzero(aq_ion & ~has_h)
+            pos = np.concatenate([pos, add])
+            el = np.concatenate([el, np.full(add.size, "H", dtype=object)])
+            cnt = np.concatenate([cnt, -z[add]])
+        # Under the electron-gas convention a gas ion's formation releases z electrons into the ideal
+        # electron gas: ΔfS° = S° − Σn·S°(el) + z·S°(e−), i.e. −z "atoms" of the electron.
+        if electron_gas and gas_ion.any():
+            add = np.flatnonzero(gas_ion)
+            pos = np.concatenate([pos, add])
+            el = np.concatenate([el, np.full(add.size, ELECTRON, dtype=object)])
+            cnt = np.concatenate([cnt, -z[add]])
         ent = element_entropies(ctx)
-        s_el = comp["element"].map({e: v.S_per_atom for e, v in ent.items()})
-        u_el = comp["element"].map({e: v.u_per_atom for e, v in ent.items()})
-        comp = comp.assign(nS=comp["count"] * s_el, nu2=(comp["count"] * u_el) ** 2, missing=s_el.isna())
-        g = comp.groupby("species", sort=False)
-        sum_el = g["nS"].sum(min_count=1)
-        var_el = g["nu2"].sum() * (T_REF / 1000.0) ** 2
-        missing = comp[comp["missing"]]
-        for ident, els in missing.groupby("species")["element"]:
-            skipped.setdefault(ident, "no reference entropy for " + ", ".join(sorted(set(els)))
-                               + " in the dataset or the built-in table, so ΔfS° cannot be formed")
-        keep = sub.index[~sub.index.isin(list(skipped))]
+        el_series = pd.Series(el, dtype=object)
+        s_el = el_series.map({e: v.S_per_atom for e, v in ent.items()}).to_numpy(float)
+        u_el = el_series.map({e: v.u_per_atom for e, v in ent.items()}).to_numpy(float)
+        missing = np.isnan(s_el)
+        sum_el = np.bincount(pos, weights=np.where(missing, 0.0, cnt * s_el), minlength=n)
+        var_el = np.bincount(pos, weights=np.where(missing, 0.0, (cnt * u_el) ** 2), minlength=n)
+        var_el *= (T_REF / 1000.0) ** 2
+        skip = np.zeros(n, dtype=bool)
+        skipped: dict[str, str] = {}
+        if not electron_gas:
+            skip |= gas_ion
+            skipped.update(dict.fromkeys(sub.index[gas_ion], _GAS_ION_SKIP))
+        if missing.any():
+            lacking: dict[int, set] = {}
+            for p_, e_ in zip(pos[missing], el[missing], strict=True):
+                lacking.setdefault(int(p_), set()).add(e_)
+            for p_, els in lacking.items():
+                skip[p_] = True
+                skipped.setdefault(sub.index[p_], "no reference entropy for " + ", ".join(sorted(els))
+                                   + " in the dataset or the built-in table, so ΔfS° cannot be formed")
+        keep = ~skip
         sub = sub.loc[keep]
         return GibbsTerms(
-            ids=keep, H=sub["dfH298"].to_numpy(float), G=sub["dfG298"].to_numpy(float),
+            ids=sub.index, H=sub["dfH298"].to_numpy(float), G=sub["dfG298"].to_numpy(float),
             S=sub["S298"].to_numpy(float), uH=np.nan_to_num(sub["u_dfH298"].to_numpy(float)),
             uG=np.nan_to_num(sub["u_dfG298"].to_numpy(float)),
             uS=np.nan_to_num(sub["u_S298"].to_numpy(float)),
             rH=rounding(sub, "dfH298"), rG=rounding(sub, "dfG298"), rS=rounding(sub, "S298"),
-            sum_el=sum_el.reindex(keep).fillna(0.0).to_numpy(float),
-            var_el=var_el.reindex(keep).fillna(0.0).to_numpy(float), k=coverage_k(ctx), skipped=skipped)
+            sum_el=sum_el[keep], var_el=var_el[keep], k=coverage_k(ctx), skipped=skipped)
 
     return _cache(ctx, "gibbs", build)
 

@@ -41,6 +41,9 @@ def phase_order(ctx: Context) -> Iterator[Finding]:
     cas = {i: r["cas"] for i, r in ctx.species.items()
            if isinstance(r, dict) and isinstance(r.get("cas"), str)}
     base = base[cols].assign(cas=base.index.map(cas)).reset_index()
+    # Records that share formula, phase and form are the duplicate check's finding; which of them to
+    # order is unknowable, and pairing them all would grow with the square of the group.
+    base = base[~base.duplicated(subset=["hill", "phase", "form"], keep=False)]
     for hi_ph, lo_ph in _PAIRS:
         hi = base[base["phase"] == hi_ph]
         lo = base[base["phase"] == lo_ph]
@@ -48,8 +51,16 @@ def phase_order(ctx: Context) -> Iterator[Finding]:
             continue
         # Every form of one phase against every form of the other (polymorphs each compared).
         m = hi.merge(lo, on="hill", suffixes=("_hi", "_lo"))
-        # Isomers share a formula: two records whose CAS numbers differ are different compounds.
-        same = ~(m["cas_hi"].notna() & m["cas_lo"].notna() & (m["cas_hi"] != m["cas_lo"]))
+        # Isomers share a formula. Two records whose CAS numbers differ are different compounds. A
+        # form label on a crystal names a polymorph: each is compared with the unlabelled (or equally
+        # labelled) liquid and gas. On a gas or liquid a label can only name an isomer, so those pair
+        # only when their labels agree.
+        f_hi, f_lo = m["form_hi"], m["form_lo"]
+        if lo_ph == "cr":
+            same = f_hi.isna() | (f_hi == f_lo)
+        else:
+            same = (f_hi.isna() & f_lo.isna()) | (f_hi == f_lo)
+        same &= ~(m["cas_hi"].notna() & m["cas_lo"].notna() & (m["cas_hi"] != m["cas_lo"]))
         m = m[same.to_numpy()]
         for fld in ("S298", "dfH298"):
             d = (m[f"{fld}_hi"] - m[f"{fld}_lo"]).to_numpy(float)

@@ -16,6 +16,7 @@ from each species' Cp model; the model increments carry no uncertainty of their 
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 import warnings
@@ -105,22 +106,70 @@ def _split_terms(side: str, which: str) -> list[str]:
     return terms
 
 
-def _index(species: Mapping[str, dict]) -> dict[tuple[str, str, str | None], list[str]]:
-    """(Hill formula with charge, phase, form) → ids; records whose formula does not parse are left out."""
-    out: dict[tuple[str, str, str | None], list[str]] = {}
-    for ident, rec in species.items():
-        if not isinstance(rec, dict) or not isinstance(rec.get("formula"), str):
-            continue
-        try:
-            hill = _formula.parse(rec["formula"]).hill
-        except FormulaError:
-            continue
-        out.setdefault((hill, rec.get("phase"), rec.get("form")), []).append(ident)
-    return out
+@functools.lru_cache(maxsize=1 << 18)
+def _hill(text: str) -> str | None:
+    """Hill formula with charge of a record's formula text, None when it does not parse (cached: a
+    dataset's formulas repeat across calls)."""
+    try:
+        return _formula.parse(text).hill
+    except FormulaError:
+        return None
 
 
-def resolve_species(term: str, species: Mapping[str, dict],
-                    _index_cache: dict | None = None) -> str:
+_SYMBOL = re.compile(r"[A-Z][a-z]?")
+
+
+def _symbol_key(text: str) -> str:
+    """The element symbols a formula text mentions, sorted: equal for any two Hill-equivalent formulas."""
+    return " ".join(sorted(set(_SYMBOL.findall(text))))
+
+
+class _Index:
+    """Candidate ids of a species mapping by (phase, element symbols), so that a term is resolved by
+    parsing a handful of formulas rather than the whole dataset.
+
+    Building it costs one regular-expression pass over the formulas; the last one built is kept for
+    the next equation on the same mapping (a check resolves many equations against one dataset). The
+    candidates are always re-read from the records, so a cached index never returns a record that no
+    longer matches.
+    """
+
+    _last: tuple[Mapping[str, dict], int, dict[tuple[str, str], list[str]]] | None = None
+
+    def __init__(self, species: Mapping[str, dict]) -> None:
+        self.species = species
+        self._map: dict[tuple[str, str], list[str]] | None = None
+
+    def _build(self) -> dict[tuple[str, str], list[str]]:
+        last = _Index._last
+        if last is not None and last[0] is self.species and last[1] == len(self.species):
+            return last[2]
+        m: dict[tuple[str, str], list[str]] = {}
+        for ident, rec in self.species.items():
+            if isinstance(rec, dict):
+                ftext, ph = rec.get("formula"), rec.get("phase")
+                if isinstance(ftext, str) and isinstance(ph, str):
+                    m.setdefault((ph, _symbol_key(ftext)), []).append(ident)
+        _Index._last = (self.species, len(self.species), m)
+        return m
+
+    def lookup(self, text: str, hill: str, phase: str, form: str | None) -> list[str]:
+        if self._map is None:
+            self._map = self._build()
+        out = []
+        for ident in self._map.get((phase, _symbol_key(text)), []):
+            rec = self.species.get(ident)
+            if not isinstance(rec, dict) or rec.get("phase") != phase:
+                continue
+            if form and rec.get("form") != form:
+                continue
+            ftext = rec.get("formula")
+            if isinstance(ftext, str) and _hill(ftext) == hill:
+                out.append(ident)
+        return sorted(out)
+
+
+def resolve_species(term: str, species: Mapping[str, dict], _index: _Index | None = None) -> str:
     """The id of the one species a term names: an id, or ``formula(phase)`` / ``formula(phase, form)``."""
     term = term.strip()
     if term in species:
@@ -139,12 +188,7 @@ def resolve_species(term: str, species: Mapping[str, dict],
         f = _formula.parse(text)
     except FormulaError as exc:
         raise InputError(f"term {term!r}: {exc.reason}", field="equation") from None
-    index = _index_cache if _index_cache is not None else _index(species)
-    if form:
-        hits = index.get((f.hill, phase, form), [])
-    else:
-        hits = [i for (h, p, _fm), ids in index.items() if h == f.hill and p == phase for i in ids]
-    hits = sorted(hits)
+    hits = (_index or _Index(species)).lookup(text, f.hill, phase, form or None)
     if not hits:
         what = f"{f.hill}({phase}{', ' + form if form else ''})"
         raise InputError(f"term {term!r}: no species {what} in the dataset", field="equation")
@@ -177,7 +221,7 @@ def parse_equation(text: str, species: dict[str, dict]) -> Reaction:
     else:
         raise InputError("the equation has no '=', '->' or '→' between reactants and products",
                          field="equation")
-    index = _index(species)
+    index = _Index(species)
     net: dict[str, Fraction] = {}
     order: list[str] = []
     for sign, side, which in ((-1, sides[0], "left"), (1, sides[1], "right")):

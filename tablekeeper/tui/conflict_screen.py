@@ -13,13 +13,14 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Vertical
 from textual.screen import ModalScreen
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from ..editing import ConflictRow
 from ..errors import ConflictError
 from .dialogs import value_text
-from .literal import lit
+from .literal import lit, lit_lines
 from .vtable import Column, VirtualTable
+from .widgets import KeyLine
 
 
 class ConflictScreen(ModalScreen[str | None]):
@@ -50,7 +51,7 @@ class ConflictScreen(ModalScreen[str | None]):
             yield Static(lit(what), markup=False, id="conflict-what")
             yield VirtualTable(id="conflict-table")
             yield Static("", id="conflict-detail", markup=False)
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
         table = self.query_one("#conflict-table", VirtualTable)
@@ -79,9 +80,9 @@ class ConflictScreen(ModalScreen[str | None]):
         r = self.rows[i]
         who = "both changed it" if r.mine_changed and r.theirs_changed else (
             "you changed it" if r.mine_changed else "they changed it")
-        text = (f"{r.field}: {who}\n  loaded: {value_text(r.base)}\n  yours:  {value_text(r.mine)}\n"
-                f"  theirs: {value_text(r.theirs)}")
-        self.query_one("#conflict-detail", Static).update(lit(text))
+        lines = [f"{r.field}: {who}", f"  loaded: {value_text(r.base)}", f"  yours:  {value_text(r.mine)}",
+                 f"  theirs: {value_text(r.theirs)}"]
+        self.query_one("#conflict-detail", Static).update(lit_lines(lines))
 
     def action_rebase(self) -> None:
         if self.error.theirs is None:

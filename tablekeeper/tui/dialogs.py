@@ -19,7 +19,7 @@ from ..editing import FieldChange, number_text
 from ..flags import FLAGGABLE, raise_flag
 from ..model import LABELS
 from ..text import printable
-from .literal import lit
+from .literal import lit, lit_lines
 
 if TYPE_CHECKING:
     from .app import TablekeeperApp
@@ -38,10 +38,10 @@ def value_text(v: object, present: bool = True) -> str:
     return printable(v)
 
 
-def changes_text(changes: Sequence[FieldChange]) -> str:
+def changes_lines(changes: Sequence[FieldChange]) -> list[str]:
     lines = [f"{c.field}: {value_text(c.old, c.old_present)} → {value_text(c.new, c.new_present)}"
              for c in changes]
-    return "\n".join(lines) if lines else "(no change)"
+    return lines or ["(no change)"]
 
 
 class ConfirmDialog(ModalScreen[bool]):
@@ -52,16 +52,16 @@ class ConfirmDialog(ModalScreen[bool]):
         Binding("n,escape", "answer(False)", "No", id="confirm.no"),
     ]
 
-    def __init__(self, title: str, body: str) -> None:
+    def __init__(self, title: str, body: Sequence[str]) -> None:
         super().__init__()
         self.title_text = title
-        self.body = body
+        self.body = list(body)
 
     def compose(self) -> ComposeResult:
         with Vertical(classes="dialog"):
             yield Static(lit(self.title_text), classes="dialog-title", markup=False)
             with VerticalScroll(classes="dialog-body"):
-                yield Static(lit(self.body), markup=False)
+                yield Static(lit_lines(self.body), markup=False)
             with Horizontal(classes="buttons"):
                 yield Button("Yes (y)", id="yes", variant="primary", compact=True)
                 yield Button("No (n)", id="no", compact=True)
@@ -85,12 +85,12 @@ class TextDialog(ModalScreen[str | None]):
 
     BINDINGS: ClassVar[list[BindingType]] = [Binding("escape", "cancel", "Cancel", id="text.cancel")]
 
-    def __init__(self, title: str, prompt: str, *, body: str = "", required: bool = True,
+    def __init__(self, title: str, prompt: str, *, body: Sequence[str] = (), required: bool = True,
                  placeholder: str = "") -> None:
         super().__init__()
         self.title_text = title
         self.prompt = prompt
-        self.body = body
+        self.body = list(body)
         self.required = required
         self.placeholder = placeholder
 
@@ -99,7 +99,7 @@ class TextDialog(ModalScreen[str | None]):
             yield Static(lit(self.title_text), classes="dialog-title", markup=False)
             if self.body:
                 with VerticalScroll(classes="dialog-body"):
-                    yield Static(lit(self.body), markup=False)
+                    yield Static(lit_lines(self.body), markup=False)
             yield Label(self.prompt, markup=False)
             yield Input(placeholder=self.placeholder, id="answer", compact=True)
             yield Static("", id="problem", classes="msg -problem", markup=False)

@@ -13,15 +13,15 @@ from typing import ClassVar
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from ..checks import Finding
 from ..editing import apply_unit_fix, field_path, number_text, slip_unit
 from ..text import printable
 from .dialogs import ConfirmDialog
-from .literal import lit
+from .literal import lit, lit_lines
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, TkScreen
+from .widgets import InfoBar, KeyLine, TkScreen
 
 _SEV = {"error": "E", "warning": "W", "info": "i"}
 
@@ -54,9 +54,10 @@ class FindingsScreen(TkScreen):
         yield InfoBar()
         yield VirtualTable(id="findings-table")
         yield Static("", id="finding-detail", markup=False)
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
+        self.ready = True
         self.table.focus()
         self.data_changed()
 
@@ -76,7 +77,7 @@ class FindingsScreen(TkScreen):
 
     def data_changed(self) -> None:
         self.update_bar()
-        if not self.is_mounted:
+        if not self.ready:
             return
         snap = self.tk.snapshot
         report = snap.report if snap else None
@@ -145,7 +146,7 @@ class FindingsScreen(TkScreen):
             lines.append(f"suggestion: {f.suggestion}")
         if f.check == "unit-suspect":
             lines.append("u: apply this correction")
-        detail.update(lit("\n".join(lines)))
+        detail.update(lit_lines(lines))
 
     @on(VirtualTable.RowHighlighted, "#findings-table")
     def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
@@ -174,12 +175,14 @@ class FindingsScreen(TkScreen):
             self.tk.notify(f"user {self.tk.user} may not edit (the steward role edits)", severity="error",
                            markup=False)
             return
-        prop = (field_path(f.field) or "?").split(".")[1] if field_path(f.field) else "?"
+        path = field_path(f.field)
+        prop = path.split(".")[1] if path and path.startswith("properties.") else str(f.field)
         unit = slip_unit(prop, f.observed, f.expected) if f.observed is not None and f.expected is not None \
             else None
-        body = (f"{f.species} {prop}: {number_text(f.observed)} → {number_text(f.expected)}"
-                + (f"\nThe stored number is kept as entered in {unit}." if unit else "")
-                + "\nThe uncertainty is left as it is. The change is saved and journaled.")
+        body = [f"{f.species} {prop}: {number_text(f.observed)} → {number_text(f.expected)}"]
+        if unit:
+            body.append(f"The stored number is kept as entered in {unit}.")
+        body.append("The uncertainty is left as it is. The change is saved and journaled.")
         ds = self.tk.dataset
 
         def confirmed(yes: bool | None) -> None:

@@ -11,15 +11,15 @@ from typing import ClassVar
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from .. import flags as core_flags
 from ..text import printable
 from .dialogs import TextDialog
-from .literal import lit
+from .literal import lit, lit_lines
 from .record_screen import flag_field
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, TkScreen
+from .widgets import InfoBar, KeyLine, TkScreen
 
 
 def _field_path(field: str | None) -> str | None:
@@ -54,9 +54,10 @@ class FlagsScreen(TkScreen):
         yield InfoBar()
         yield VirtualTable(id="flags-table")
         yield Static("", id="flag-detail", markup=False)
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
+        self.ready = True
         self.table.focus()
         self.data_changed()
 
@@ -76,7 +77,7 @@ class FlagsScreen(TkScreen):
 
     def data_changed(self) -> None:
         self.update_bar()
-        if not self.is_mounted:
+        if not self.ready:
             return
         snap = self.tk.snapshot
         keep = (self.current or {}).get("id")
@@ -121,7 +122,7 @@ class FlagsScreen(TkScreen):
         if f.get("status") == "resolved":
             lines.append(f"resolved by {f.get('resolved_by')} at {f.get('resolved_at')}"
                          + (f": {f.get('resolution')}" if f.get("resolution") else ""))
-        detail.update(lit("\n".join(lines)))
+        detail.update(lit_lines(lines))
 
     @on(VirtualTable.RowHighlighted, "#flags-table")
     def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
@@ -166,7 +167,7 @@ class FlagsScreen(TkScreen):
                                  lambda _: self._saved("comment added"))
 
         self.app.push_screen(TextDialog(f"Comment on flag {flag_id}", "Comment:",
-                                        body=str(f.get("note", ""))), answered)
+                                        body=[str(f.get("note", ""))]), answered)
 
     def action_resolve(self) -> None:
         f = self.current
@@ -188,7 +189,7 @@ class FlagsScreen(TkScreen):
                                  lambda _: self._saved("flag resolved"))
 
         self.app.push_screen(TextDialog(f"Resolve flag {flag_id}", "Resolution (what was done):",
-                                        body=str(f.get("note", "")), required=False), answered)
+                                        body=[str(f.get("note", ""))], required=False), answered)
 
     def _saved(self, what: str) -> None:
         self.tk.notify(what, markup=False)

@@ -10,11 +10,11 @@ from typing import ClassVar
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import VerticalScroll
-from textual.widgets import Footer, Static
+from textual.widgets import Static
 
 from . import registry
-from .literal import lit
-from .widgets import InfoBar, TkScreen
+from .literal import lit_lines
+from .widgets import InfoBar, KeyLine, TkScreen
 
 INTRO = """\
 tablekeeper keeps a thermochemical table honest. Keys work in every terminal: letters, digits, F-keys,
@@ -42,7 +42,7 @@ def help_text() -> str:
     from .app import TablekeeperApp
     from .conflict_screen import ConflictScreen
     from .dialogs import ConfirmDialog, FlagDialog, TextDialog
-    from .record_screen import FieldInput, RecordScreen
+    from .record_screen import RecordScreen
     from .sources_screen import SourceDialog
     from .vtable import VirtualTable
 
@@ -55,7 +55,7 @@ def help_text() -> str:
             sections.append((f"{entry.title} ({entry.keys.replace(',', ', ')})",
                              list(getattr(entry.screen_class, "BINDINGS", []))))
     sections += [
-        ("Record and editor (Enter on a species)", list(RecordScreen.BINDINGS) + list(FieldInput.BINDINGS)),
+        ("Record and editor (Enter on a species)", list(RecordScreen.BINDINGS)),
         ("Save conflict", list(ConflictScreen.BINDINGS)),
         ("Flag dialog", list(FlagDialog.BINDINGS)),
         ("Source editor", list(SourceDialog.BINDINGS)),
@@ -72,13 +72,15 @@ class HelpScreen(TkScreen):
     """Every key binding, by screen."""
 
     TITLE_TEXT = "Help"
-    BINDINGS: ClassVar[list[BindingType]] = [Binding("escape,f1,question_mark", "back", "Back", id="help.back")]
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("escape,f1,question_mark", "back", "Back", id="help.back"),
+    ]
 
     def compose(self) -> ComposeResult:
         yield InfoBar()
         with VerticalScroll(id="help"):
-            yield Static(lit(help_text()), markup=False)
-        yield Footer()
+            yield Static(lit_lines(help_text().split("\n")), markup=False)
+        yield KeyLine()
 
     def on_mount(self) -> None:
         self.query_one("#help", VerticalScroll).focus()

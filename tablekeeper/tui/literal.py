@@ -21,6 +21,12 @@ def lit(value: object, style: str = "") -> Content:
     return Content.styled(printable(value), style) if style else Content(printable(value))
 
 
+def lit_lines(lines: Iterable[object]) -> Content:
+    """Several values, one per line: each escaped on its own (a newline inside data stays visible as
+    an escape), joined by real line breaks."""
+    return Content("\n".join(printable(line) for line in lines))
+
+
 def join(parts: Iterable[Content | str], sep: str = "") -> Content:
     """Join literal pieces; plain ``str`` pieces are taken literally too (they are code, not data)."""
     return Content(sep).join(p if isinstance(p, Content) else Content(p) for p in parts)

@@ -1,25 +1,28 @@
 """One species record: every value with its unit, uncertainty, source and method, its findings and flags
 beside it, and the editor (live validation, save with a reason, undo, conflicts).
 
-The edit logic lives in ``tablekeeper.editing``; this screen shows ``RecordEdit.result()`` after every key
-press and sends the save through ``editing.save_edit`` in a worker.
+The fields are rows of a virtual table (one widget, so the screen opens at once); Enter on a field puts
+its text in the edit line at the bottom, where every key press is applied to the would-be record and
+validated (``tablekeeper.editing.RecordEdit``): the converted canonical value or the error sentence
+appears in the panel above the edit line. The save goes through ``editing.save_edit`` in a worker.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
+from dataclasses import dataclass
 from typing import ClassVar
 
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.css.query import NoMatches
-from textual.widgets import Footer, Input, Label, Static
+from textual.widgets import Input, Static
 
 from ..editing import (
     EDIT_FIELDS,
     SCALAR_FIELDS,
+    SPEC_BY_PATH,
     EditResult,
     FieldSpec,
     RecordEdit,
@@ -33,17 +36,15 @@ from ..errors import ConflictError
 from ..model import FIELDS, LABELS, display_name
 from ..text import printable
 from ..units import canonical_unit
-from .dialogs import ConfirmDialog, TextDialog, changes_text
-from .literal import lit
-from .widgets import InfoBar, TkScreen
+from .dialogs import ConfirmDialog, TextDialog, changes_lines
+from .literal import lit_lines
+from .vtable import Column, VirtualTable
+from .widgets import InfoBar, KeyLine, TkScreen
 
 _SEV = {"error": "E", "warning": "W", "info": "i"}
+_SEV_RANK = {"E": 0, "W": 1, "i": 2}
 _ROW_LABEL = {"value": "value", "uncertainty": "uncertainty", "coverage": "coverage k", "source": "source",
               "method": "method", "reference_state": "reference state", "cas": "CAS number"}
-
-
-def dom_id(path: str) -> str:
-    return "f-" + path.replace(".", "-")
 
 
 def flag_field(path: str | None) -> str | None:
@@ -54,43 +55,34 @@ def flag_field(path: str | None) -> str | None:
     return parts[1] if parts[0] == "properties" else parts[0]
 
 
-class FieldInput(Input):
-    """An editor field: up and down move between fields, Enter goes to the next one."""
-
-    BINDINGS: ClassVar[list[BindingType]] = [
-        Binding("down", "screen.focus_next", "Next field", show=False, id="field.next"),
-        Binding("up", "screen.focus_previous", "Previous field", show=False, id="field.previous"),
-    ]
+def row_label(spec: FieldSpec) -> str:
+    label = _ROW_LABEL.get(spec.part or spec.path, spec.label)
+    if spec.unit:
+        label = f"{label} {spec.unit.replace('*', '·')}"
+    return label
 
 
-class FieldRow(Vertical):
-    """Label, input, and the line under it (conversion, problem, findings, flags)."""
+@dataclass(frozen=True)
+class _Row:
+    """A row of the record table: a section title, an editable field, or a finding/flag line."""
 
-    def __init__(self, spec: FieldSpec, text: str, disabled: bool) -> None:
-        super().__init__(classes="field-row", id=f"row-{dom_id(spec.path)}")
-        self.spec = spec
-        self.text = text
-        self.read_only = disabled
+    kind: str  # "section" | "field" | "info"
+    text: str = ""
+    path: str | None = None  # the field (for "info": the field it concerns)
+    severity: str = ""
 
-    def compose(self) -> ComposeResult:
-        spec = self.spec
-        label = _ROW_LABEL.get(spec.part or spec.path, spec.label)
-        if spec.unit:
-            label = f"{label} {spec.unit.replace('*', '·')}"
-        with Horizontal(classes="row"):
-            yield Label(label, classes="label", markup=False)
-            inp = FieldInput(value=printable(self.text), name=spec.path, id=dom_id(spec.path), compact=True,
-                             disabled=self.read_only, select_on_focus=False)
-            inp.cursor_blink = False
-            yield inp
-        yield Static("", classes="msg", markup=False)
+
+class EditLine(Input):
+    """The edit line: Enter keeps the text and goes back to the fields; Escape puts the text back."""
 
 
 class RecordScreen(TkScreen):
     """A species record and its editor.
 
-    Type ``-68.3 kcal/mol`` into a value: the canonical value appears under it, and what you typed is
-    kept as the entered value. ctrl+s saves (asking for a reason that goes into the journal).
+    Enter on a field edits it in the line at the bottom. Type ``-68.3 kcal/mol`` into a value: the
+    canonical value appears above, and what you typed is kept as the entered value. ctrl+s saves
+    (asking for a reason that goes into the journal). Marks: * unsaved, ✗ problem, E/W/i worst finding,
+    F open flag.
     """
 
     TITLE_TEXT = "Record"
@@ -101,7 +93,7 @@ class RecordScreen(TkScreen):
         Binding("ctrl+r", "undo_all", "Undo all", id="record.undo_all"),
         Binding("ctrl+l", "reload_record", "Reload", id="record.reload"),
         Binding("ctrl+f", "flag", "Flag", id="record.flag"),
-        Binding("ctrl+g", "flags", "Flags", id="record.flags"),
+        Binding("ctrl+g", "flags", "Flags", show=False, id="record.flags"),
     ]
 
     def __init__(self, ident: str, focus_field: str | None = None) -> None:
@@ -112,8 +104,13 @@ class RecordScreen(TkScreen):
         self.changed_on_disk = False
         self.deleted_on_disk = False
         self.saving = False
-
-    # -- building --------------------------------------------------------------------------------------
+        self.editing: str | None = None  # path in the edit line
+        self._before_edit = ""
+        self.rows: list[_Row] = []
+        self._result: EditResult | None = None
+        self._extra: dict[str, list[str]] = {}
+        self._marks: dict[str, str] = {}
+        self._info_rows: list[_Row] = []
 
     @property
     def read_only(self) -> bool:
@@ -123,48 +120,48 @@ class RecordScreen(TkScreen):
         snap = self.tk.snapshot
         return None if snap is None else snap.species.get(self.species_id)
 
+    # -- building --------------------------------------------------------------------------------------
+
     def compose(self) -> ComposeResult:
         rec = self._record() or {"id": self.species_id}
         snap = self.tk.snapshot
         self.edit = RecordEdit(rec, sources=snap.sources if snap else None)
-        ro = self.read_only
         yield InfoBar()
         yield Static("", id="banner", markup=False)
-        with VerticalScroll(id="form"):
-            yield Static(lit(f"{self.species_id}  {display_name(rec)}  revision {rec.get('revision', '?')}"),
-                         classes="section", id="record-title", markup=False)
-            for spec in EDIT_FIELDS:
-                if spec.prop and spec.part == "value":
-                    unit = canonical_unit(spec.prop).replace("*", "·")
-                    yield Static(lit(f"{LABELS[spec.prop]}  ({spec.prop}, {unit})"), classes="section",
-                                 markup=False)
-                yield FieldRow(spec, field_text(rec, spec.path), ro)
-            yield Static("Cp(T) model", classes="section", markup=False)
-            yield Static("", id="cp-model", markup=False)
-            yield Static("Findings and flags on the whole record", classes="section", markup=False)
-            yield Static("", id="record-notes", classes="msg", markup=False)
-        yield Footer()
+        yield VirtualTable(id="record-table")
+        yield Static("", id="field-info", markup=False)
+        line = EditLine(placeholder="Enter on a field edits it here", id="editor", compact=True,
+                        select_on_focus=False, disabled=self.read_only)
+        line.cursor_blink = False
+        yield line
+        yield KeyLine()
 
     def on_mount(self) -> None:
+        self.ready = True
         self.data_changed()
-        self.refresh_messages()
-        if self.focus_field:
-            self.call_after_refresh(self.focus_path, self.focus_field)
-        elif not self.read_only:
-            self.call_after_refresh(self.focus_path, "properties.dfH298.value")
+        table = self.table
+        table.focus()
+        want = self.focus_field or "properties.dfH298.value"
+        self.focus_path(want)
+
+    @property
+    def table(self) -> VirtualTable:
+        return self.query_one("#record-table", VirtualTable)
+
+    @property
+    def current_path(self) -> str | None:
+        """The field under the cursor (or being edited)."""
+        if self.editing:
+            return self.editing
+        i = self.table.cursor
+        return self.rows[i].path if 0 <= i < len(self.rows) and self.rows[i].kind == "field" else None
 
     def focus_path(self, path: str) -> None:
-        try:
-            inp = self.query_one(f"#{dom_id(path)}", FieldInput)
-            row = self.query_one(f"#row-{dom_id(path)}", FieldRow)
-        except NoMatches:
-            return
-        row.add_class("-target")
-        if inp.disabled:
-            row.scroll_visible(animate=False, top=True)
-        else:
-            inp.focus()
-            row.scroll_visible(animate=False)
+        """Put the cursor on a field's row."""
+        for i, row in enumerate(self.rows):
+            if row.kind == "field" and row.path == path:
+                self.table.cursor = i
+                return
 
     def has_unsaved(self) -> bool:
         return bool(self.edit and self.edit.dirty)
@@ -183,20 +180,20 @@ class RecordScreen(TkScreen):
             return
         lines = []
         if self.deleted_on_disk:
-            lines.append("This record was deleted by someone else. Your edits are still here; saving will "
-                         "show the conflict.")
+            lines.append("Deleted by someone else. Your edits are still here; saving will show the "
+                         "conflict.")
         elif self.changed_on_disk:
             lines.append("Changed by someone else — ctrl+l reloads (your edits are applied again) or keep "
                          "editing; saving will show the conflict.")
         if self.read_only:
             lines.append(f"Read-only: user {self.tk.user} may not edit (the steward role edits). "
-                         "ctrl+f raises a flag.")
-        banner.update(lit("\n".join(lines)))
+                         "ctrl+f flags the field under the cursor.")
+        banner.update(lit_lines(lines))
         banner.set_class(bool(lines), "-shown")
         banner.set_class(self.changed_on_disk or self.deleted_on_disk, "-warning")
 
     def data_changed(self) -> None:
-        if not self.is_mounted or self.edit is None:
+        if not self.ready or self.edit is None:
             return
         disk = self._record()
         if disk is None:
@@ -208,91 +205,171 @@ class RecordScreen(TkScreen):
                     self.changed_on_disk = True
                 else:
                     # Nothing typed here: simply show the new version.
-                    self._rebase(disk, quiet=True)
+                    self.edit.rebase(disk)
+                    self.changed_on_disk = False
                     self.tk.notify(f"{printable(self.species_id)} was updated on disk; showing the new "
                                    "version", markup=False)
-        self.update_bar()
         self._banner()
-        self.refresh_messages()
+        self.refresh_view()
 
-    def refresh_messages(self) -> None:
-        """The line under every field: problem, conversion, entered value, source, findings, flags."""
-        if self.edit is None:
-            return
-        result = self.edit.result()
+    def _collect(self) -> list[str]:
+        """Findings and flags of the record, by field (``_extra``, ``_marks``); returns all their lines."""
         snap = self.tk.snapshot
-        by_path: dict[str, list[tuple[str, str]]] = {}
-        record_level: list[tuple[str, str]] = []
+        extra: dict[str, list[str]] = {}
+        marks: dict[str, str] = {}
+        everything: list[tuple[str, str | None, str]] = []
         if snap is not None:
             for f in snap.findings_for(self.species_id):
-                line = f"{_SEV.get(f.severity, '?')} {f.check}: {f.message}"
+                if f.check == "flag":
+                    continue  # the flag itself is listed below, with who and when
+                sev = _SEV.get(f.severity, "?")
+                line = f"{sev} {f.check}: {f.message}"
                 if f.suggestion:
                     line += f" (suggestion: {f.suggestion})"
-                kind = "-finding" if f.severity != "info" else "-note"
                 path = field_path(f.field)
-                (by_path.setdefault(path, []) if path else record_level).append((line, kind))
+                if path:
+                    extra.setdefault(path, []).append(line)
+                    if _SEV_RANK.get(sev, 9) < _SEV_RANK.get(marks.get(path, ""), 9):
+                        marks[path] = sev
+                everything.append((line, path, f.severity))
             for fl in snap.flags_for(self.species_id):
                 state = fl.get("status", "?") + (", blocking" if fl.get("blocking") else "")
-                line = (f"flag ({state}) by {fl.get('raised_by')} at {fl.get('raised_at')}: {fl.get('note')}"
-                        f"  [{len(fl.get('comments') or [])} comments]")
+                n = len(fl.get("comments") or [])
+                line = (f"flag ({state}) on {fl.get('field')} by {fl.get('raised_by')} at "
+                        f"{fl.get('raised_at')}: {fl.get('note')} ({n} comment{'s' if n != 1 else ''})")
                 fld = fl.get("field")
                 path = f"properties.{fld}.value" if fld in FIELDS else (fld if fld in SCALAR_FIELDS else None)
-                (by_path.setdefault(path, []) if path else record_level).append((line, "-flag"))
-        for spec in EDIT_FIELDS:
-            self._row_message(spec, result, by_path.get(spec.path, []))
-        try:
-            self.query_one("#record-notes", Static).update(
-                lit("\n".join(t for t, _ in record_level) or "none"))
-            self.query_one("#cp-model", Static).update(lit(self._cp_text(result.record)))
-            title = self.query_one("#record-title", Static)
-        except NoMatches:
+                if path:
+                    extra.setdefault(path, []).append(line)
+                    if fl.get("status") == "open":
+                        marks[path + "#flag"] = "F"
+                everything.append((line, path, "flag"))
+        self._extra = extra
+        self._marks = marks
+        self._info_rows = [_Row("info", line, path, sev) for line, path, sev in everything]
+        return [line for line, _, _ in everything]
+
+    def refresh_view(self) -> None:
+        """Rebuild the rows from the editor's would-be record and redraw."""
+        if self.edit is None or not self.ready:
             return
+        self._result = self.edit.result()
+        self._collect()
         orig = self.edit.original
-        title.update(lit(f"{self.species_id}  {display_name(orig)}  revision {orig.get('revision', '?')}"))
+        title = f"{self.species_id}  {display_name(orig)}  revision {orig.get('revision', '?')}"
+        rows = [_Row("section", title)]
+        for spec in EDIT_FIELDS:
+            if spec.prop and spec.part == "value":
+                unit = canonical_unit(spec.prop).replace("*", "·")
+                rows.append(_Row("section", f"{LABELS[spec.prop]}  ({spec.prop}, {unit})"))
+            rows.append(_Row("field", path=spec.path))
+        rows.append(_Row("section", "Cp(T) model"))
+        rows.append(_Row("info", self._cp_text(self._result.record)))
+        rows.append(_Row("section", "Findings and flags of the record"))
+        rows += self._info_rows or [_Row("info", "none")]
+        self.rows = rows
+        table = self.table
+        cols = [Column("marks", (), 3), Column("field", (), 22), Column("value", (), 20),
+                Column("note", (), 30)]
+        table.set_data(cols, len(rows), self._cells, self._style)
+        self._field_info()
         self.update_bar()
 
-    def _row_message(self, spec: FieldSpec, result: EditResult, extra: list[tuple[str, str]]) -> None:
+    def _row_marks(self, path: str) -> str:
+        assert self.edit is not None and self._result is not None
+        dirty = "*" if path in self.edit.texts else " "
+        sev = "✗" if path in self._result.problems else self._marks.get(path, " ")
+        return dirty + sev + self._marks.get(path + "#flag", " ")
+
+    def _note(self, spec: FieldSpec) -> str:
+        """The short note beside a field: its problem, the conversion made, what was entered, or the
+        source's title."""
+        assert self.edit is not None and self._result is not None
+        res = self._result
+        if spec.path in res.problems:
+            return f"✗ {res.problems[spec.path]}"
+        if spec.path in res.notes:
+            return res.notes[spec.path]
+        prop = ((res.record.get("properties") or {}).get(spec.prop) or {}) if spec.prop else {}
+        if spec.part == "value":
+            ent = prop.get("entered")
+            if isinstance(ent, Mapping):
+                return f"entered as {number_text(ent.get('value'))} {ent.get('unit')}"
+        if spec.part == "source" and prop.get("source"):
+            snap = self.tk.snapshot
+            src = snap.sources.get(prop["source"]) if snap else None
+            if isinstance(src, Mapping):
+                return str(src.get("title", ""))
+        extra = self._extra.get(spec.path)
+        return extra[0] if extra else ""
+
+    def _cells(self, i: int) -> list[str]:
+        row = self.rows[i]
+        if row.kind == "section":
+            return [printable(row.text)]
+        if row.kind == "info":
+            return ["", "", "", printable(row.text)] if row.path is None else \
+                ["", printable(row.path), "", printable(row.text)]
+        assert self.edit is not None and row.path is not None
+        spec = SPEC_BY_PATH[row.path]
+        return [self._row_marks(row.path), row_label(spec), printable(self.edit.text(row.path)),
+                printable(self._note(spec))]
+
+    def _style(self, i: int) -> str | None:
+        row = self.rows[i]
+        if row.kind == "section":
+            return "group"
+        if row.kind == "info":
+            return {"error": "error", "warning": "warning"}.get(row.severity)
+        if self._result is not None and row.path in self._result.problems:
+            return "error"
+        return None
+
+    def _field_info(self) -> None:
+        """The details of the field under the cursor, in the panel above the edit line."""
         try:
-            row = self.query_one(f"#row-{dom_id(spec.path)}", FieldRow)
+            panel = self.query_one("#field-info", Static)
+            line = self.query_one("#editor", EditLine)
         except NoMatches:
             return
-        assert self.edit is not None
-        lines: list[str] = []
-        kind = ""
-        if spec.path in result.problems:
-            lines.append(f"✗ {result.problems[spec.path]}")
-            kind = "-problem"
-        elif spec.path in result.notes:
-            lines.append(result.notes[spec.path])
-            kind = "-note"
-        elif spec.part == "value" and spec.path not in self.edit.texts:
-            ent = ((self.edit.original.get("properties") or {}).get(spec.prop) or {}).get("entered")
-            if isinstance(ent, Mapping):
-                lines.append(f"entered as {number_text(ent.get('value'))} {ent.get('unit')}")
-                kind = "-note"
-        if spec.part == "source":
-            src = ((result.record.get("properties") or {}).get(spec.prop) or {}).get("source")
-            snap = self.tk.snapshot
-            if src and snap is not None and src in snap.sources:
-                s = snap.sources[src]
-                authors = ", ".join(str(a) for a in s.get("authors") or [])
-                lines.append(f"{s.get('title', '')} ({authors} {s.get('year', '')})")
-                kind = kind or "-note"
-        for text, k in extra:
-            lines.append(text)
-            kind = kind or k
-        msg = row.query_one(".msg", Static)
-        msg.update(lit("\n".join(lines)))
-        msg.set_class(bool(lines), "-shown")
-        for cls in ("-problem", "-note", "-finding", "-flag"):
-            msg.set_class(cls == kind, cls)
-        row.set_class(spec.path in self.edit.texts, "-dirty")
+        path = self.current_path
+        result = self._result
+        if path is None or result is None or self.edit is None:
+            i = self.table.cursor
+            row = self.rows[i] if 0 <= i < len(self.rows) else None
+            text = row.text if row is not None and row.kind == "info" else ""
+            panel.update(lit_lines([text] if text else []))
+            panel.set_class(False, "-problem")
+            if not self.editing and line.value:
+                with line.prevent(Input.Changed):
+                    line.value = ""
+            return
+        spec = SPEC_BY_PATH[path]
+        lines: list[str] = [f"{row_label(spec)}" + (f" of {LABELS[spec.prop]}" if spec.prop else "")
+                            + ("  (Enter edits)" if not self.editing and not self.read_only else "")]
+        if path in result.problems:
+            lines.append(f"✗ {result.problems[path]}")
+        elif path in result.notes:
+            lines.append(result.notes[path])
+        note = self._note(spec)
+        if note and note not in lines[-1]:
+            lines.append(note)
+        if spec.part == "value" and len(lines) == 1:
+            lines.append("a number, optionally with a unit (-68.3 kcal/mol); empty removes the value")
+        lines += [x for x in self._extra.get(path, []) if x != note]
+        panel.update(lit_lines(lines))
+        panel.set_class(path in result.problems, "-problem")
+        if not self.editing:
+            want = printable(self.edit.text(path))
+            if line.value != want:
+                with line.prevent(Input.Changed):
+                    line.value = want
 
     @staticmethod
     def _cp_text(rec: Mapping) -> str:
         model = rec.get("cp_model")
         if not isinstance(model, Mapping):
-            return "none (edit Cp models from the model screens)"
+            return "no Cp(T) model"
         kind = model.get("kind", "?")
         src = f", source {model.get('source')}" if model.get("source") else ""
         if kind == "tabulated":
@@ -304,64 +381,95 @@ class RecordScreen(TkScreen):
                 if ranges else "no ranges")
         return f"{kind}, {len(ranges)} range{'s' if len(ranges) != 1 else ''}, {span}{src}"
 
-    def _set_inputs(self) -> None:
-        """Put the editor's texts back into the inputs (after undo, rebase or save)."""
+    # -- navigating and typing -------------------------------------------------------------------------
+
+    @on(VirtualTable.RowHighlighted, "#record-table")
+    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
+        self._field_info()
+
+    @on(VirtualTable.RowSelected, "#record-table")
+    def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
+        row = self.rows[event.row]
+        if row.kind == "info" and row.path:
+            self.focus_path(row.path)
+            return
+        if row.kind != "field" or row.path is None:
+            return
+        if self.read_only:
+            self.tk.notify(f"read-only: user {self.tk.user} may not edit; ctrl+f raises a flag",
+                           severity="warning", markup=False)
+            return
+        self.start_edit(row.path)
+
+    def start_edit(self, path: str) -> None:
+        """Put a field's text in the edit line and focus it."""
         assert self.edit is not None
-        for spec in EDIT_FIELDS:
-            try:
-                inp = self.query_one(f"#{dom_id(spec.path)}", FieldInput)
-            except NoMatches:
-                continue
-            want = printable(self.edit.text(spec.path))
-            if inp.value != want:
-                with inp.prevent(Input.Changed):
-                    inp.value = want
-        self.refresh_messages()
+        self.focus_path(path)
+        self.editing = path
+        self._before_edit = self.edit.text(path)
+        line = self.query_one("#editor", EditLine)
+        with line.prevent(Input.Changed):
+            line.value = printable(self._before_edit)
+        line.cursor_position = len(line.value)
+        line.focus()
+        self._field_info()
 
-    # -- typing ----------------------------------------------------------------------------------------
+    def stop_edit(self, keep: bool) -> None:
+        path = self.editing
+        if path is None or self.edit is None:
+            return
+        if not keep:
+            self.edit.set_text(path, self._before_edit)
+        self.editing = None
+        self.table.focus()
+        self.refresh_view()
 
-    @on(Input.Changed)
-    def on_field_changed(self, event: Input.Changed) -> None:
-        path = event.input.name
-        if not path or self.edit is None or not isinstance(event.input, FieldInput):
+    @on(Input.Changed, "#editor")
+    def on_editor_changed(self, event: Input.Changed) -> None:
+        path = self.editing
+        if path is None or self.edit is None:
             return
         value = event.value
         original = field_text(self.edit.original, path)
         if value == printable(original):
             value = original  # an escaped control character shown, not typed
         self.edit.set_text(path, value)
-        self.refresh_messages()
+        self.refresh_view()
 
-    @on(Input.Submitted)
-    def on_field_submitted(self, event: Input.Submitted) -> None:
-        if isinstance(event.input, FieldInput):
-            self.focus_next()
+    @on(Input.Submitted, "#editor")
+    def on_editor_submitted(self, event: Input.Submitted) -> None:
+        self.stop_edit(keep=True)
 
     # -- actions ---------------------------------------------------------------------------------------
 
-    def _focused_path(self) -> str | None:
-        w = self.focused
-        return w.name if isinstance(w, FieldInput) else None
-
     def action_undo_field(self) -> None:
-        path = self._focused_path()
+        path = self.current_path
         if path and self.edit is not None:
             self.edit.undo_field(path)
-            self._set_inputs()
+            if self.editing == path:
+                self._before_edit = self.edit.text(path)
+                line = self.query_one("#editor", EditLine)
+                with line.prevent(Input.Changed):
+                    line.value = printable(self._before_edit)
+            self.refresh_view()
 
     def action_undo_all(self) -> None:
         if self.edit is not None and self.edit.dirty:
             n = len(self.edit.dirty)
+            if self.editing:
+                self.stop_edit(keep=False)
             self.edit.undo_all()
-            self._set_inputs()
+            self.refresh_view()
             self.tk.notify(f"{n} unsaved edit{'s' if n != 1 else ''} undone", markup=False)
 
     def _rebase(self, theirs: Mapping, quiet: bool = False) -> None:
         assert self.edit is not None
+        if self.editing:
+            self.stop_edit(keep=True)
         self.edit.rebase(theirs)
         self.changed_on_disk = False
-        self._set_inputs()
         self._banner()
+        self.refresh_view()
         if not quiet:
             self.tk.notify("their version is loaded and your edits are applied over it: check and save",
                            markup=False)
@@ -374,12 +482,15 @@ class RecordScreen(TkScreen):
         self._rebase(disk)
 
     def action_flag(self) -> None:
-        self.tk.raise_flag_dialog(self.species_id, flag_field(self._focused_path()))
+        self.tk.raise_flag_dialog(self.species_id, flag_field(self.current_path))
 
     def action_flags(self) -> None:
         self.tk.open_flags(self.species_id)
 
     def action_back(self) -> None:
+        if self.editing:
+            self.stop_edit(keep=False)
+            return
         if not self.has_unsaved():
             self.dismiss()
             return
@@ -391,7 +502,7 @@ class RecordScreen(TkScreen):
 
         self.app.push_screen(ConfirmDialog(
             f"Leave {self.species_id} without saving?",
-            f"{len(self.edit.dirty)} unsaved edit(s) will be lost:\n" + changes_text(self.edit.changes())),
+            [f"{len(self.edit.dirty)} unsaved edit(s) will be lost:", *changes_lines(self.edit.changes())]),
             answer)
 
     def action_save(self) -> None:
@@ -402,6 +513,8 @@ class RecordScreen(TkScreen):
             self.tk.notify(f"user {self.tk.user} may not edit this dataset (the steward role edits); "
                            "raise a flag instead (ctrl+f)", severity="error", markup=False)
             return
+        if self.editing:
+            self.stop_edit(keep=True)
         result = edit.result()
         if not result.ok:
             self.tk.notify(printable(result.sentences()[0]), severity="error", markup=False)
@@ -417,7 +530,7 @@ class RecordScreen(TkScreen):
                 self._save(reason)
 
         self.app.push_screen(TextDialog(f"Save {self.species_id}", "Reason for the journal:",
-                                        body=changes_text(changes), placeholder="why this change"),
+                                        body=changes_lines(changes), placeholder="why this change"),
                              with_reason)
 
     def _save(self, reason: str) -> None:
@@ -435,8 +548,8 @@ class RecordScreen(TkScreen):
             for p, t in pending.items():
                 edit.set_text(p, t)
             self.changed_on_disk = False
-            self._set_inputs()
             self._banner()
+            self.refresh_view()
             self.tk.notify(f"saved {printable(self.species_id)} (revision {saved.get('revision')})",
                            markup=False)
             self.tk.reload()

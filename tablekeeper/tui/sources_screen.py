@@ -14,14 +14,14 @@ from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical
 from textual.screen import ModalScreen
-from textual.widgets import Footer, Input, Label, Static
+from textual.widgets import Input, Label, Static
 
 from ..editing import SOURCE_FIELDS, SOURCE_KINDS, build_source, save_source, source_text
 from ..model import LABELS
 from ..text import printable
-from .literal import lit
+from .literal import lit, lit_lines
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, TkScreen
+from .widgets import InfoBar, KeyLine, TkScreen
 
 if TYPE_CHECKING:
     from .app import TablekeeperApp
@@ -47,9 +47,10 @@ class SourcesScreen(TkScreen):
         yield InfoBar()
         yield VirtualTable(id="sources-table")
         yield Static("", id="source-detail", markup=False)
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
+        self.ready = True
         self.table.focus()
         self.data_changed()
 
@@ -64,7 +65,7 @@ class SourcesScreen(TkScreen):
 
     def data_changed(self) -> None:
         self.update_bar()
-        if not self.is_mounted:
+        if not self.ready:
             return
         snap = self.tk.snapshot
         keep = (self.current or {}).get("id")
@@ -102,7 +103,7 @@ class SourcesScreen(TkScreen):
         more = f" and {len(cites) - 12} more" if len(cites) > 12 else ""
         lines.append(f"cited by {len(cites)} value{'s' if len(cites) != 1 else ''}"
                      + (f": {shown}{more}" if cites else ""))
-        detail.update(lit("\n".join(lines)))
+        detail.update(lit_lines(lines))
 
     @on(VirtualTable.RowHighlighted, "#sources-table")
     def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
@@ -192,8 +193,8 @@ class SourceDialog(ModalScreen[dict | None]):
 
     def _validate(self) -> bool:
         result = build_source(self.original, self.texts)
-        text = "\n".join(f"✗ {name}: {msg}" for name, msg in result.problems.items())
-        self.query_one("#source-problems", Static).update(lit(text))
+        lines = [f"✗ {name}: {msg}" for name, msg in result.problems.items()]
+        self.query_one("#source-problems", Static).update(lit_lines(lines))
         return result.ok
 
     def action_save(self) -> None:

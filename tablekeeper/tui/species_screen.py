@@ -7,14 +7,14 @@ from typing import ClassVar
 from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.widgets import Footer, Input, Static
+from textual.widgets import Input, Static
 
 from ..model import display_name
 from ..text import printable
 from .literal import lit
 from .species_model import COLUMNS, NUMERIC, SpeciesModel
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, TkScreen
+from .widgets import InfoBar, KeyLine, TkScreen
 
 _ROW_STYLE = {0: "error", 1: "warning"}
 
@@ -50,9 +50,10 @@ class SpeciesScreen(TkScreen):
         table.empty_text = "loading…"
         yield table
         yield Static("", id="detail", markup=False)
-        yield Footer()
+        yield KeyLine()
 
     def on_mount(self) -> None:
+        self.ready = True
         self.query_one("#filter", Input).cursor_blink = False
         self.table.focus()
         self.data_changed()
@@ -72,7 +73,7 @@ class SpeciesScreen(TkScreen):
     def data_changed(self) -> None:
         self.update_bar()
         snap = self.tk.snapshot
-        if snap is None or not self.is_mounted:
+        if snap is None or not self.ready:
             return
         if snap.model is not self.model:
             keep = self.species_id

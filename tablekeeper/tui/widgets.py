@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, cast
 
+from textual.content import Content
 from textual.css.query import NoMatches
 from textual.screen import Screen
 from textual.widgets import Static
@@ -12,6 +13,36 @@ from .literal import lit
 
 if TYPE_CHECKING:
     from .app import TablekeeperApp
+
+
+class KeyLine(Static):
+    """The footer: the keys that work now, one line. Rebuilt as one Content when the bindings change
+    (the stock Footer recomposes a widget per key on every focus change, which costs tenths of a second
+    per key press on a slow machine and redraws more over SSH)."""
+
+    def __init__(self) -> None:
+        super().__init__("", id="keys", markup=False)
+
+    def on_mount(self) -> None:
+        self.screen.bindings_updated_signal.subscribe(self, self._changed)
+        self._changed(self.screen)
+
+    def on_unmount(self) -> None:
+        self.screen.bindings_updated_signal.unsubscribe(self)
+
+    def _changed(self, screen: Screen) -> None:
+        if screen is not self.screen:
+            return
+        seen: set[str] = set()
+        parts: list[Content] = []
+        for _node, binding, enabled, _tip in screen.active_bindings.values():
+            if not binding.show or not enabled or binding.action in seen:
+                continue
+            seen.add(binding.action)
+            key = self.app.get_key_display(binding)
+            parts.append(Content.assemble((key, "bold reverse"), f" {binding.description}"))
+        parts.append(Content.assemble(("^p", "bold reverse"), " palette"))
+        self.update(Content("  ").join(parts))
 
 
 class InfoBar(Static):
@@ -45,6 +76,8 @@ class TkScreen(Screen):
     a new snapshot or check report is in."""
 
     TITLE_TEXT = ""
+    #: Set when the screen's widgets are mounted and ``data_changed`` may query them.
+    ready = False
 
     @property
     def tk(self) -> TablekeeperApp:

@@ -20,8 +20,9 @@ from tablekeeper.store import Dataset
 KJ, JK = "kJ/mol", "J/(mol*K)"
 
 SOURCES = {
-    "codata-1989": {"title": "CODATA Key Values for Thermodynamics", "authors": ["Cox, J. D.", "Wagman, D. D.",
-                    "Medvedev, V. A."], "year": 1989, "kind": "compilation"},
+    "codata-1989": {"title": "CODATA Key Values for Thermodynamics",
+                    "authors": ["Cox, J. D.", "Wagman, D. D.", "Medvedev, V. A."], "year": 1989,
+                    "kind": "compilation"},
     "janaf-1998": {"title": "NIST-JANAF Thermochemical Tables, 4th edition", "authors": ["Chase, M. W."],
                    "year": 1998, "kind": "compilation", "identifier": "J. Phys. Chem. Ref. Data Monograph 9"},
 }
@@ -71,7 +72,8 @@ def species_records() -> list[dict]:
         {"id": "h2o-l", "formula": "H2O", "phase": "l", "charge": 0, "status": "reviewed", "name": "water",
          "properties": {"dfH298": prop(-285.83, KJ, 0.04), "S298": prop(69.95, JK, 0.03),
                         "dfG298": prop(-237.14, KJ, 0.04, method="derived"), "Cp298": cp(75.351)}},
-        {"id": "h2o-g", "formula": "H2O", "phase": "g", "charge": 0, "status": "reviewed", "name": "water vapour",
+        {"id": "h2o-g", "formula": "H2O", "phase": "g", "charge": 0, "status": "reviewed",
+         "name": "water vapour",
          "properties": {"dfH298": prop(-241.826, KJ, 0.04), "S298": prop(188.835, JK, 0.01),
                         "dfG298": prop(-228.582, KJ, 0.04, method="derived"), "Cp298": cp(33.59)}},
         {"id": "co2-g", "formula": "CO2", "phase": "g", "charge": 0, "status": "reviewed",

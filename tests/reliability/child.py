@@ -84,8 +84,21 @@ def saver(root: str, ident: str, note: str) -> None:
     _say({"saved": [ident, new["id"]]})
 
 
+def _drop_privileges() -> None:
+    """Become another OS user (shared-folder tests). Done after the imports: the interpreter may live
+    where that user cannot read."""
+    uid, gid = os.environ.get("TK_AS_UID"), os.environ.get("TK_AS_GID")
+    if uid:
+        import filelock  # noqa: F401  (loaded while still readable)
+
+        os.setgroups([int(gid)])
+        os.setgid(int(gid))
+        os.setuid(int(uid))
+
+
 if __name__ == "__main__":
     _apply_safety()
+    _drop_privileges()
     mode, args = sys.argv[1], sys.argv[2:]
     if mode == "counter":
         counter(args[0], args[1], int(args[2]), args[3])

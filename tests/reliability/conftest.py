@@ -45,3 +45,13 @@ def temp_leftovers(root: Path) -> list[Path]:
 @pytest.fixture
 def leftovers() -> Callable[[Path], list[Path]]:
     return temp_leftovers
+
+
+sys.path.insert(0, str(Path(__file__).parent))
+import clean_data  # noqa: E402  (a plain module beside this file, shared with tests/security)
+
+
+@pytest.fixture
+def clean_dataset(tmp_path: Path):
+    """A dataset of CODATA key species that passes every check."""
+    return clean_data.build(tmp_path / "clean")

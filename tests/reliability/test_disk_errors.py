@@ -145,39 +145,50 @@ def _mount_tmpfs(where: Path, size: str) -> bool:
     return r.returncode == 0
 
 
+def _fill_and_save(mnt: Path, make_species) -> tuple[int, int, int]:
+    """Save a 150 kB record with 0..304 kB free: (refused, refused that changed files, completed)."""
+    refused = damaged = kept = 0
+    for free_kb in range(0, 320, 16):
+        root = mnt / "ds"
+        shutil.rmtree(root, ignore_errors=True)
+        for f in mnt.glob("filler*"):
+            f.unlink()
+        ds = Dataset.init(root, "full")
+        ds.save("species", make_species("water", notes="before"), expected_revision=None)
+        before = _snapshot(root)
+        st = os.statvfs(mnt)
+        fill = st.f_bavail * st.f_frsize - free_kb * 1024
+        if fill > 0:
+            (mnt / "filler").write_bytes(b"\0" * fill)
+        rec = ds.load("species", "water")
+        big = dict(rec, cp_model={"kind": "tabulated", "points": [[100.0 + i, 30.0] for i in range(3000)]})
+        try:
+            ds.save("species", big, expected_revision=rec["revision"])
+            kept += 1
+            assert Dataset(root).load("species", "water") == dict(big, revision=2)
+        except OSError as exc:
+            assert exc.errno == errno.ENOSPC, exc
+            refused += 1
+            damaged += _snapshot(root) != before or any(".tmp-" in p.name for p in root.rglob("*"))
+    return refused, damaged, kept
+
+
 @pytest.mark.timeout(120)
-def test_full_tmpfs_refuses_saves_and_keeps_previous_files(tmp_path, make_species):
-    """A real ENOSPC: a 1 MiB tmpfs filled to leave 0..300 kB free before a 150 kB save."""
+def test_full_tmpfs_refuses_saves_and_keeps_previous_files(tmp_path, make_species, monkeypatch):
+    """A real ENOSPC: a 1 MiB tmpfs filled to leave 0..304 kB free before a 150 kB save. The control
+    run writes in place (``SAFETY.atomic = False``) and shows a refused save destroying the record."""
     mnt = tmp_path / "mnt"
     if not _mount_tmpfs(mnt, "1m"):
         pytest.skip("no tmpfs can be mounted here (needs root); the injection test above covers ENOSPC")
     try:
-        refused = kept = 0
-        for free_kb in range(0, 320, 16):
-            root = mnt / "ds"
-            shutil.rmtree(root, ignore_errors=True)
-            for f in mnt.glob("filler*"):
-                f.unlink()
-            ds = Dataset.init(root, "full")
-            ds.save("species", make_species("water", notes="before"), expected_revision=None)
-            before = _snapshot(root)
-            st = os.statvfs(mnt)
-            fill = st.f_bavail * st.f_frsize - free_kb * 1024
-            if fill > 0:
-                (mnt / "filler").write_bytes(b"\0" * fill)
-            rec = ds.load("species", "water")
-            big = dict(rec, cp_model={"kind": "tabulated", "points": [[100.0 + i, 30.0] for i in range(3000)]})
-            try:
-                ds.save("species", big, expected_revision=rec["revision"])
-                kept += 1
-                assert Dataset(root).load("species", "water") == dict(big, revision=2)
-            except OSError as exc:
-                assert exc.errno == errno.ENOSPC, exc
-                refused += 1
-                assert _snapshot(root) == before, f"{free_kb} kB free: files changed by a refused save"
-            assert not [p for p in root.rglob("*") if ".tmp-" in p.name]
-        print(f"full tmpfs: {refused} saves refused with ENOSPC leaving every file byte-identical, "
+        refused, damaged, kept = _fill_and_save(mnt, make_species)
+        print(f"full tmpfs: {refused} saves refused with ENOSPC, {damaged} of them changed a file; "
               f"{kept} saves completed")
         assert refused > 0 and kept > 0, (refused, kept)
+        assert damaged == 0, f"{damaged} of {refused} refused saves changed files"
+        monkeypatch.setattr(store.SAFETY, "atomic", False)
+        c_refused, c_damaged, c_kept = _fill_and_save(mnt, make_species)
+        print(f"control without atomic rename: {c_damaged} of {c_refused} refused saves changed the record")
+        assert c_damaged > 0, "writing in place on a full disk damaged nothing: the test cannot fail"
     finally:
         subprocess.run(["umount", str(mnt)], capture_output=True, timeout=10)

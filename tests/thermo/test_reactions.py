@@ -314,3 +314,13 @@ def test_format_uncertain_uses_two_significant_digits():
     assert format_uncertain(ufloat(1110.08, 0.41)) == "1110.08 ± 0.41"
     assert format_uncertain(ufloat(12345.0, 150.0)) == "12345 ± 150"
     assert CAUTION.startswith("caution:") and "licensed practice" in CAUTION
+
+
+def test_a_species_added_between_two_equations_is_seen(make_record):
+    sp = _lime(make_record)
+    del sp["aragonite"]
+    assert parse_equation("CaCO3(cr) = CaO(cr) + CO2(g)", sp).terms[0] == (-1.0, "calcite")
+    sp["aragonite"] = make_record("aragonite", "CaCO3", "cr", dfH=-1207.1, S=88.7, form="aragonite")
+    with pytest.raises(InputError, match="ambiguous"):
+        parse_equation("CaCO3(cr) = CaO(cr) + CO2(g)", sp)
+    assert parse_equation("CO3Ca(cr, aragonite) = CaO(cr) + CO2(g)", sp).terms[0] == (-1.0, "aragonite")
