@@ -9,13 +9,12 @@ from __future__ import annotations
 
 import argparse
 import enum
-import json
 import sys
 from collections.abc import Sequence
 from pathlib import Path
 
 from .errors import TablekeeperError
-from .text import printable
+from .text import json_text, printable
 
 
 class Exit(enum.IntEnum):
@@ -59,7 +58,7 @@ def cmd_check(args: argparse.Namespace) -> int:
 
     report = check_dataset(Dataset(args.dataset))
     if args.format == "json":
-        _out(json.dumps(report.to_json(), ensure_ascii=False, indent=2))
+        _out(json_text(report.to_json()))
     else:
         _out(format_report(report))
     return Exit.FOUND if report.fails(args.fail_on) else Exit.OK

@@ -27,3 +27,16 @@ def printable(value: object) -> str:
 
 def has_control(s: str) -> bool:
     return bool(_UNSAFE.search(s))
+
+
+_UNSAFE_IN_JSON = re.compile("[\x7f-\x9f\u202a-\u202e\u2066-\u2069\u200b-\u200f\u2028\u2029]")
+
+
+def json_text(obj: object, *, indent: int | None = 2) -> str:
+    """JSON for stdout, readable (non-ASCII kept) yet safe on a terminal: ``json.dumps`` with
+    ``ensure_ascii=False`` escapes C0 controls but leaves C1 controls (U+009B is a CSI) and bidi
+    overrides raw; those are written as ``\\uXXXX`` escapes, which decode to the same text."""
+    import json
+
+    dumped = json.dumps(obj, ensure_ascii=False, indent=indent)
+    return _UNSAFE_IN_JSON.sub(lambda m: f"\\u{ord(m.group(0)):04x}", dumped)

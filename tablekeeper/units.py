@@ -12,6 +12,7 @@ Conversion is by a multiplicative factor per (unit, field), parsed once and cach
 from __future__ import annotations
 
 import functools
+import math
 import re
 from dataclasses import dataclass
 
@@ -127,4 +128,7 @@ def parse_quantity(text: str, field: str) -> tuple[float, str, float]:
         raise UnitError(f"{text!r} is not a number with an optional unit", field=field)
     entered = float(m.group(1).replace("−", "-"))
     unit = m.group(2) or canonical_unit(field)
-    return to_canonical(entered, unit, field), unit, entered
+    value = to_canonical(entered, unit, field)
+    if not (math.isfinite(entered) and math.isfinite(value)):  # "1e400" parses to infinity
+        raise UnitError(f"{text.strip()[:40]!r} is too large to be a number", field=field)
+    return value, unit, entered

@@ -26,6 +26,7 @@ SCHEMA_FILES = {
     "flags": "flag.schema.json",
     "journal": "journal.schema.json",
     "releases": "release.schema.json",
+    "datapackage": "datapackage.schema.json",
 }
 
 #: Formats our schemas use; tests fail if the format checker cannot really check one of them.

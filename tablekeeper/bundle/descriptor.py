@@ -13,17 +13,11 @@ either breaks the JSON, breaks the canonical form, or changes content the hash c
 
 from __future__ import annotations
 
-import functools
 import hashlib
-import json
 from collections.abc import Mapping, Sequence
-from importlib import resources
 from typing import Any
 
-from jsonschema import Draft202012Validator
-
-from .. import jsonio
-from ..validation import pointer
+from .. import jsonio, validation
 from .tables import CHANGES, TABLES
 
 FORMAT = 1
@@ -89,19 +83,9 @@ def build(*, meta: Mapping[str, Any], version: str, created: str, previous: str 
     return out
 
 
-@functools.cache
-def _validator() -> Draft202012Validator:
-    text = resources.files("tablekeeper").joinpath("schemas", "datapackage.schema.json").read_text("utf-8")
-    return Draft202012Validator(json.loads(text), format_checker=Draft202012Validator.FORMAT_CHECKER)
-
-
 def schema_errors(descriptor: Any) -> list[str]:
     """'<JSON pointer>: message' for every way the descriptor breaks datapackage.schema.json."""
-    out = []
-    for err in _validator().iter_errors(descriptor):
-        msg = err.message if len(err.message) <= 200 else err.message[:197] + "..."
-        out.append(f"{pointer(err.absolute_path) or '/'}: {msg}")
-    return sorted(out)
+    return [f"{ptr or '/'}: {msg}" for ptr, msg in validation.errors("datapackage", descriptor, fast=False)]
 
 
 def accepted_entry(finding: Any) -> dict[str, Any]:

@@ -85,9 +85,10 @@ def snapshot_of_dataset(dataset: Dataset, label: str | None = None) -> Snapshot:
     return Snapshot.from_records(label or str(dataset.root), sp.records, src.records)
 
 
-def snapshot_of_bundle(path: Path) -> Snapshot:
-    """A verified bundle's rows (DamagedFileError when it does not verify)."""
-    report = load_verified(path, keep=_DIFF_TABLES)
+def snapshot_of_bundle(path: Path, *, light: bool = False) -> Snapshot:
+    """A verified bundle's rows (DamagedFileError when it does not verify). ``light``: see
+    verify.verify_folder; only for a bundle whose digest matched its release record."""
+    report = load_verified(path, keep=_DIFF_TABLES, light=light)
     desc = report.descriptor or {}
     columns = {r["name"]: tuple(f["name"] for f in r.get("schema", {}).get("fields", []))
                for r in desc.get("resources", []) if "schema" in r}

@@ -27,7 +27,7 @@ Layout choices a reader relies on:
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
 
@@ -400,35 +400,6 @@ def cp_model_rows(species: Mapping[str, Mapping]) -> list[Row]:
     return [row for ident in sorted(species) for row in cp_rows_of(ident, species[ident].get("cp_model"))]
 
 
-def thermo_rows(species: Mapping[str, Mapping], step: float = THERMO_STEP_K,
-                tick: Callable[[int], None] | None = None) -> Iterator[Row]:
-    """Derived rows from tablekeeper.thermo; species it cannot tabulate are left out (never extrapolated)."""
-    from ..thermo import default_grid, derived_table, model_from_json
-
-    cols = ("T_K", "Cp_J_per_molK", "S_J_per_molK", "H_minus_H298_kJ_per_mol", "G_minus_H298_kJ_per_mol")
-    for n, ident in enumerate(sorted(species)):
-        if tick is not None:
-            tick(n)
-        rec = species[ident]
-        model_json = rec.get("cp_model")
-        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
-        if not isinstance(model_json, dict) or not isinstance(props.get("S298"), dict):
-            continue
-        try:
-            model = model_from_json(model_json)
-            if not model.tmin <= 298.15 <= model.tmax:
-                continue
-            frame = derived_table(rec, default_grid(model, step))
-        except InputError:
-            continue
-        block = frame.to_numpy(dtype="float64") if tuple(frame.columns) == cols else \
-            frame.loc[:, list(cols)].to_numpy(dtype="float64")
-        for values in block.tolist():
-            row = {"species": ident}
-            row.update(zip(cols, values, strict=True))
-            yield row
-
-
 def source_rows(sources: Mapping[str, Mapping]) -> list[Row]:
     rows = []
     for ident in sorted(sources):
@@ -470,67 +441,98 @@ def _header_line(table: Table) -> str:
     return ",".join(_quoted(c.name) for c in table.columns) + "\n"
 
 
-def _fast_cell(column: Column) -> Callable[[Any], str | None]:
-    """A formatter for the common cases of a column (None when format_cell must decide): a float or
-    None in a number column, a plain str or None in a text column. The slow path raises the errors."""
+def _column_text(table: Table, column: Column, rows: list[Row]) -> list[str]:
+    """The cell text of one column for every row. Written as one loop per column, without a call per
+    cell in the common cases (a finite float, a plain text); anything else goes through format_cell,
+    which converts it or raises the error naming file, record and column."""
+    name = column.name
+    out: list[str] = []
+    add = out.append
+    slow = format_cell
     if column.type == "number":
-        isfinite = math.isfinite
-
-        def number(v: Any) -> str | None:
+        for r in rows:
+            v = r.get(name)
             if v is None:
-                return ""
-            if type(v) is float and isfinite(v):
-                return repr(v)
-            return None
-
-        return number
-    if column.type == "string":
-        def text(v: Any) -> str | None:
+                add("")
+            elif type(v) is float and v - v == 0.0:  # finite: inf - inf and nan - nan are nan
+                add(repr(v))
+            else:
+                add(slow(v, column, file=table.path, record=_record(table, r)))
+    elif column.type == "string":
+        lead = FORBIDDEN_LEAD
+        for r in rows:
+            v = r.get(name)
             if v is None:
-                return ""
-            if type(v) is str and v and v[0] not in FORBIDDEN_LEAD:
-                return _quoted(v)
-            return None
+                add("")
+            elif type(v) is str and v and v[0] not in lead:
+                add(_quoted(v))
+            else:
+                add(_quoted(slow(v, column, file=table.path, record=_record(table, r))))
+    else:
+        for r in rows:
+            add(slow(r.get(name), column, file=table.path, record=_record(table, r)))
+    return out
 
-        return text
-    return lambda v: None
+
+def _record(table: Table, row: Row) -> str:
+    key = table.primary_key or (table.columns[0].name,)
+    return "/".join(str(row.get(k)) for k in key)
 
 
-_FAST: dict[str, list[tuple[str, Column, Callable[[Any], str | None]]]] = {}
-
-
-def encode_line(table: Table, row: Row) -> str:
-    """One CSV line of a row, with its LF."""
-    plan = _FAST.get(table.name)
-    if plan is None:
-        plan = _FAST[table.name] = [(c.name, c, _fast_cell(c)) for c in table.columns]
-    cells = []
-    for name, col, fast in plan:
-        v = row.get(name)
-        text = fast(v)
-        if text is None:
-            key = table.primary_key or (table.columns[0].name,)
-            record = "/".join(str(row.get(k)) for k in key)
-            text = _quoted(format_cell(v, col, file=table.path, record=record))
-        cells.append(text)
-    return ",".join(cells) + "\n"
+def encode_text(table: Table, rows: list[Row], *, header: bool = True) -> str:
+    """The CSV text of rows (with the header line unless told otherwise)."""
+    columns = [_column_text(table, c, rows) for c in table.columns]
+    body = "".join(",".join(cells) + "\n" for cells in zip(*columns, strict=True))
+    return (_header_line(table) if header else "") + body
 
 
 def encode_rows(table: Table, rows: Iterable[Row]) -> bytes:
     """The CSV bytes of a table: header, one line per row, LF line ends, UTF-8, RFC 4180 quoting."""
+    return encode_text(table, list(rows)).encode("utf-8")
+
+
+def thermo_text(species: Mapping[str, Mapping], step: float = THERMO_STEP_K,
+                tick: Callable[[int], None] | None = None) -> str:
+    """thermo_table.csv as text, written straight from each species' block of derived values (the table
+    is the largest of a bundle; no row dictionaries are built for it)."""
+    from ..thermo import default_grid, derived_table, model_from_json
+
+    table = TABLE_BY_NAME["thermo_table"]
+    cols = ("T_K", "Cp_J_per_molK", "S_J_per_molK", "H_minus_H298_kJ_per_mol", "G_minus_H298_kJ_per_mol")
     parts = [_header_line(table)]
-    parts.extend(encode_line(table, row) for row in rows)
-    return "".join(parts).encode("utf-8")
+    for n, ident in enumerate(sorted(species)):
+        if tick is not None:
+            tick(n)
+        rec = species[ident]
+        model_json = rec.get("cp_model")
+        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
+        if not isinstance(model_json, dict) or not isinstance(props.get("S298"), dict):
+            continue
+        try:
+            model = model_from_json(model_json)
+            if not model.tmin <= 298.15 <= model.tmax:
+                continue
+            frame = derived_table(rec, default_grid(model, step))
+        except InputError:
+            continue
+        block = frame.to_numpy(dtype="float64") if tuple(frame.columns) == cols else \
+            frame.loc[:, list(cols)].to_numpy(dtype="float64")
+        if not math.isfinite(float(block.sum())):
+            raise InputError("the derived thermodynamic table holds a value that is not finite",
+                             file=table.path, record=ident, field="cp_model")
+        lead = format_cell(ident, table.columns[0], file=table.path, record=ident)
+        parts.extend(f"{lead},{a!r},{b!r},{c!r},{d!r},{e!r}\n" for a, b, c, d, e in block.tolist())
+    return "".join(parts)
 
 
-def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20,
+def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20, canonical: bool = True,
                 ) -> tuple[list[Row], list[str], dict[str, set]]:
     """Typed rows of a table's CSV bytes, the problems met, and the set of values of each column that
     a foreign key points from (for the caller to check against the referenced table).
 
     Problems: not UTF-8, header, cell types, required cells, enumerations, duplicate primary keys, and
-    bytes that differ from what a release writes for the same rows (CR LF, "1.50" for 1.5, …). At most
-    ``limit`` problems are listed one by one; the rest are counted in a last line.
+    (``canonical``) bytes that differ from what a release writes for the same rows (CR LF, "1.50" for
+    1.5, needless quotes). At most ``limit`` problems are listed one by one; the rest are counted.
     """
     import csv
     import hashlib
@@ -560,10 +562,24 @@ def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20
         found = ",".join(header or [])[:200]
         return [], [f"header is {found!r}, expected {','.join(table.header)[:200]!r}"], refs
     rows: list[Row] = []
+    chunk: list[Row] = []
     seen: set[tuple] = set()
     cols = table.columns
+    names = [c.name for c in cols]
+    pk = table.primary_key
     again = hashlib.sha256(_header_line(table).encode("utf-8"))
     typed_ok = True
+
+    def flush() -> None:
+        nonlocal typed_ok
+        if canonical and typed_ok and chunk:
+            try:
+                again.update(encode_text(table, chunk, header=False).encode("utf-8"))
+            except InputError as exc:
+                problem(str(exc))
+                typed_ok = False
+        chunk.clear()
+
     try:
         for line_no, cells in enumerate(reader, start=2):
             if len(cells) != len(cols):
@@ -571,33 +587,35 @@ def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20
                 typed_ok = False
                 continue
             row: Row = {}
-            for col, cell in zip(cols, cells, strict=True):
+            for col, name, cell in zip(cols, names, cells, strict=True):
+                if cell == "" and not col.required:
+                    row[name] = None
+                    continue
                 try:
-                    row[col.name] = parse_cell(cell, col)
+                    row[name] = parse_cell(cell, col)
                 except ValueError as exc:
-                    problem(f"line {line_no}, column {col.name}: {exc}")
-                    row[col.name] = None
+                    problem(f"line {line_no}, column {name}: {exc}")
+                    row[name] = None
                     typed_ok = False
-            if table.primary_key:
-                key = tuple(row[k] for k in table.primary_key)
+            if pk:
+                key = tuple(row[k] for k in pk)
                 if key in seen:
                     problem(f"line {line_no}: primary key ({', '.join(map(str, key))}) appears twice")
                 seen.add(key)
             for name, values in refs.items():
-                if row.get(name) is not None:
-                    values.add(row[name])
-            if typed_ok:
-                try:
-                    again.update(encode_line(table, row).encode("utf-8"))
-                except InputError as exc:
-                    problem(f"line {line_no}: {exc.reason}")
-                    typed_ok = False
+                v = row.get(name)
+                if v is not None:
+                    values.add(v)
             if keep:
                 rows.append(row)
+            chunk.append(row)
+            if len(chunk) >= 20000:
+                flush()
     except csv.Error as exc:
         problem(f"does not parse as CSV ({exc})")
         typed_ok = False
-    if typed_ok and not problems and again.digest() != hashlib.sha256(data).digest():
+    flush()
+    if canonical and typed_ok and not problems and again.digest() != hashlib.sha256(data).digest():
         # Same rows, other bytes (CR LF line ends, "1.50" for 1.5, needless quotes): not as written.
         problem("is not in the canonical form a release writes (same values, other bytes)")
     if more:

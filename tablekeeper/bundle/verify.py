@@ -53,8 +53,14 @@ def is_archive(path: Path) -> bool:
     return path.name.endswith((".tar.gz", ".tgz"))
 
 
-def verify_folder(folder: Path, *, keep: tuple[str, ...] = (), label: str | None = None) -> VerifyReport:
-    """Verify a bundle folder; the rows of the tables named in ``keep`` are returned typed."""
+def verify_folder(folder: Path, *, keep: tuple[str, ...] = (), label: str | None = None,
+                  light: bool = False) -> VerifyReport:
+    """Verify a bundle folder; the rows of the tables named in ``keep`` are returned typed.
+
+    ``light`` is for a bundle whose archive digest was just matched against a release record: every
+    hash is still compared, but only the tables in ``keep`` (and those they reference) are parsed, and
+    their canonical bytes are not rebuilt.
+    """
     report = VerifyReport(path=label or str(folder))
     dmg = report.damages.append
     try:
@@ -119,7 +125,10 @@ def verify_folder(folder: Path, *, keep: tuple[str, ...] = (), label: str | None
             dmg(f"{name}: the descriptor's Table Schema is not the one this bundle format defines")
         # Referenced tables (species, sources) are small; their rows are kept for the foreign keys.
         referenced = table.name in _REFERENCED
-        rows, problems, fk_values = decode_rows(table, data, keep=table.name in keep or referenced)
+        if light and table.name not in keep and not referenced:
+            continue
+        rows, problems, fk_values = decode_rows(table, data, keep=table.name in keep or referenced,
+                                                canonical=not light)
         for p in problems:
             dmg(f"{name}: {p}")
         if table.name in keep:
@@ -129,7 +138,7 @@ def verify_folder(folder: Path, *, keep: tuple[str, ...] = (), label: str | None
         for fields, target, target_fields in table.foreign_keys:
             refs.append((name, fields[0], fk_values[fields[0]], target, target_fields[0]))
     for name, column, values, target, _ in refs:
-        if target not in id_sets:
+        if target not in id_sets or (light and name[:-4] not in keep):
             continue
         missing = sorted(str(v) for v in values - id_sets[target])
         if missing:
@@ -174,22 +183,24 @@ def _created_epoch(desc: dict | None) -> int | None:
         return None
 
 
-def verify(path: str | os.PathLike[str], *, keep: tuple[str, ...] = ()) -> VerifyReport:
+def verify(path: str | os.PathLike[str], *, keep: tuple[str, ...] = (), light: bool = False) -> VerifyReport:
     """Verify a bundle folder or archive. Raises InputError only when the path is neither."""
     p = Path(path)
     if p.is_dir():
-        return verify_folder(p, keep=keep)
+        if not any((p / f).exists() for f in BUNDLE_FILES):
+            raise InputError("is not a bundle folder (it holds none of the files of a bundle)", file=str(p))
+        return verify_folder(p, keep=keep, light=light)
     if p.is_file() and is_archive(p):
         with opened(p) as op:
-            return verify_opened(p, op, keep)
+            return verify_opened(p, op, keep, light=light)
     raise InputError("is neither a bundle folder nor a bundle archive (.tar.gz)", file=str(p))
 
 
-def verify_opened(p: Path, op: Opened, keep: tuple[str, ...] = ()) -> VerifyReport:
+def verify_opened(p: Path, op: Opened, keep: tuple[str, ...] = (), *, light: bool = False) -> VerifyReport:
     """Verify an archive already opened with ``archive.opened``."""
     if op.folder is None:
         return VerifyReport(path=str(p), damages=list(op.problems))
-    report = verify_folder(op.folder, keep=keep, label=str(p))
+    report = verify_folder(op.folder, keep=keep, label=str(p), light=light)
     report.damages[:0] = op.problems
     desc = report.descriptor
     if isinstance(desc, dict):
@@ -201,9 +212,10 @@ def verify_opened(p: Path, op: Opened, keep: tuple[str, ...] = ()) -> VerifyRepo
     return report
 
 
-def load_verified(path: str | os.PathLike[str], keep: tuple[str, ...]) -> VerifyReport:
+def load_verified(path: str | os.PathLike[str], keep: tuple[str, ...], *,
+                  light: bool = False) -> VerifyReport:
     """Verify and return the typed rows of ``keep``; DamagedFileError when any damage was found."""
-    return raise_if_damaged(verify(path, keep=keep))
+    return raise_if_damaged(verify(path, keep=keep, light=light))
 
 
 def raise_if_damaged(report: VerifyReport) -> VerifyReport:

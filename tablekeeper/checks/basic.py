@@ -101,7 +101,7 @@ def element_reference_check(ctx: Context) -> Iterator[Finding]:
                           f"it is {value:g} kJ/mol", species=ident, field=fld, observed=value,
                           expected=0.0, tolerance=0.0, suggestion="set the value to 0")
     multi = ref & fr["hill"].notna() & fr["hill"].map(
-        lambda h: h is not None and len([c for c in h if c.isupper()]) != 1)
+        lambda h: isinstance(h, str) and len([c for c in h if c.isupper()]) != 1)
     for ident in fr.index[multi]:
         yield Finding("element-reference", "error",
                       f"{ident} is marked as an element reference state but its formula is not a "

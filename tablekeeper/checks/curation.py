@@ -71,18 +71,20 @@ def phase_order(ctx: Context) -> Iterator[Finding]:
             # many times any rounding).
             with np.errstate(invalid="ignore"):
                 bad = np.isfinite(d) & ((d < -tol) | (d == 0))
-            for j in np.flatnonzero(bad):
-                row = m.iloc[j]
-                a, b = row["species_hi"], row["species_lo"]
-                label, unit = LABELS[fld], _UNITS[fld]
-                text = (f"{label}({hi_ph}) should exceed {label}({lo_ph}) for {row['hill']}, but {a} has "
-                        f"{num(row[f'{fld}_hi'])} and {b} has {num(row[f'{fld}_lo'])} {unit} (tolerance "
-                        f"{num(tol[j])} = {num(k)} × combined uncertainty and rounding); the "
-                        f"{'entropy' if fld == 'S298' else 'enthalpy'} rises from crystal to liquid to gas")
-                yield Finding("phase-order", "error", text, species=a, field=fld, observed=row[f"{fld}_hi"],
-                              expected=row[f"{fld}_lo"], tolerance=tol[j])
-                yield Finding("phase-order", "error", text, species=b, field=fld, observed=row[f"{fld}_lo"],
-                              expected=row[f"{fld}_hi"], tolerance=tol[j])
+            label, unit = LABELS[fld], _UNITS[fld]
+            what = "entropy" if fld == "S298" else "enthalpy"
+            sel = np.flatnonzero(bad)
+            cols = zip(m["species_hi"].to_numpy()[sel], m["species_lo"].to_numpy()[sel],
+                       m["hill"].to_numpy()[sel], m[f"{fld}_hi"].to_numpy(float)[sel],
+                       m[f"{fld}_lo"].to_numpy(float)[sel], tol[sel], strict=True)
+            for a, b, hill, v_hi, v_lo, t in cols:
+                text = (f"{label}({hi_ph}) should exceed {label}({lo_ph}) for {hill}, but {a} has "
+                        f"{num(v_hi)} and {b} has {num(v_lo)} {unit} (tolerance {num(t)} = {num(k)} × "
+                        f"combined uncertainty and rounding); the {what} rises from crystal to liquid to gas")
+                yield Finding("phase-order", "error", text, species=a, field=fld, observed=v_hi,
+                              expected=v_lo, tolerance=t)
+                yield Finding("phase-order", "error", text, species=b, field=fld, observed=v_lo,
+                              expected=v_hi, tolerance=t)
 
 
 # -- uncertainty ----------------------------------------------------------------------------------------

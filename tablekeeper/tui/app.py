@@ -10,6 +10,7 @@ Disk work runs in workers (``run_disk``) that end in one callback carrying the r
 from __future__ import annotations
 
 import time
+import traceback
 from collections.abc import Callable, Iterable
 from pathlib import Path
 from typing import Any, ClassVar
@@ -39,6 +40,13 @@ class ChecksDone(Message):
     def __init__(self, snapshot: Snapshot, report: Report) -> None:
         self.snapshot = snapshot
         self.report = report
+        super().__init__()
+
+
+class ChecksFailed(Message):
+    def __init__(self, reason: str, details: str) -> None:
+        self.reason = reason
+        self.details = details
         super().__init__()
 
 
@@ -246,7 +254,12 @@ class TablekeeperApp(App[None]):
         self._announce()
 
         def work() -> None:
-            report = check_snapshot(snap)
+            try:
+                report = check_snapshot(snap)
+            except Exception as exc:  # a fault in one check must not take the app down
+                self.post_message(ChecksFailed(f"the checks failed: {type(exc).__name__}: {exc}",
+                                               traceback.format_exc()))
+                return
             self.post_message(ChecksDone(snap, report))
 
         self.run_worker(work, thread=True, exclusive=True, group="check", name="check")
@@ -258,6 +271,12 @@ class TablekeeperApp(App[None]):
         snap.report = message.report
         snap.model.set_marks(marks_from(message.report.findings, snap.flags))
         self.checking = False
+        self._announce()
+
+    def on_checks_failed(self, message: ChecksFailed) -> None:
+        self.checking = False
+        self.log.error(message.details)
+        self.notify(printable(message.reason), severity="error", markup=False, timeout=10)
         self._announce()
 
     def _poll(self) -> None:

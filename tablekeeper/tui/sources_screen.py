@@ -73,7 +73,7 @@ class SourcesScreen(TkScreen):
                        key=lambda s: str(s.get("id")))
         self.items = items
         cols = [Column("id", ("id",), 18), Column("year", ("year",), 4), Column("authors", ("authors",), 22),
-                Column("title", ("title",), 60)]
+                Column("title", ("title",), 31)]
 
         def cells(i: int) -> list[str]:
             s = items[i]
@@ -94,6 +94,9 @@ class SourcesScreen(TkScreen):
             return
         cites = snap.citations(str(s.get("id")))
         lines = [f"{s.get('id')}: {s.get('title')}"]
+        if s.get("authors"):
+            year = f" ({s.get('year')})" if s.get("year") else ""
+            lines.append(f"authors: {source_text(s, 'authors')}{year}")
         extra = [f"{k} {s.get(k)}" for k in ("kind", "identifier") if s.get(k)]
         if extra:
             lines.append("; ".join(extra))
@@ -160,7 +163,7 @@ class SourceDialog(ModalScreen[dict | None]):
                     hint = {"authors": "Last, F.; Other, G.", "kind": " | ".join(SOURCE_KINDS),
                             "identifier": "DOI, report number or URL"}.get(name, "")
                     inp = Input(value=printable(source_text(self.original, name)), name=name,
-                                id=f"src-{name}", placeholder=hint, compact=True,
+                                id=f"src-{name}", placeholder=hint, compact=True, select_on_focus=False,
                                 disabled=name == "id" and self.original is not None)
                     inp.cursor_blink = False
                     yield inp

@@ -146,6 +146,8 @@ class VirtualTable(ScrollView, can_focus=True):
         self.post_message(self.RowHighlighted(self, new))
 
     def _scroll_cursor_into_view(self) -> None:
+        if not self.size.height:
+            return  # not laid out yet: on_resize comes back here
         top = round(self.scroll_y)
         rows = self.page_rows
         if self.cursor < top:

@@ -126,3 +126,21 @@ def _accepting(g):
     g.report = Report(g.report.dataset, [Finding(f.check, "info", f.message, f.species, f.field)
                                          for f in g.report.findings])
     return g
+
+
+def test_a_formula_like_name_that_slipped_past_the_store_is_refused_at_write_time(clean_dataset, tmp_path,
+                                                                                   monkeypatch):
+    # Written to disk by hand, not through the store (which refuses it); the checks report it, and even
+    # with the gate's findings accepted the writer refuses to put the cell into a CSV file.
+    from tablekeeper import jsonio
+    from tablekeeper.bundle import writer
+
+    rec = clean_dataset.load("species", "co-g")
+    rec["name"] = "@SUM(A1:A9)"
+    (clean_dataset.root / "species" / "co-g.json").write_bytes(jsonio.dumps(rec))
+    real_gate = writer.gate
+    monkeypatch.setattr(writer, "gate", lambda ds, **kw: _accepting(real_gate(ds, **kw)))
+    with pytest.raises(InputError) as info:
+        release(clean_dataset, "1.0.0", out=tmp_path / "out")
+    assert "species.csv" in str(info.value) and "co-g" in str(info.value) and "name" in str(info.value)
+    assert list((tmp_path / "out").iterdir()) == []

@@ -107,10 +107,18 @@ def test_every_damage_is_reported_not_only_the_first(bundle):
     assert {"species.csv", "values.csv", "sources.csv"} <= damaged
 
 
-def test_not_a_bundle_is_an_input_error(tmp_path):
+def test_not_a_bundle_is_an_input_error(tmp_path, clean_dataset):
     (tmp_path / "x.txt").write_text("hello")
     with pytest.raises(InputError):
         verify(tmp_path / "x.txt")
+    with pytest.raises(InputError, match="not a bundle folder"):
+        verify(clean_dataset.root)
+
+
+def test_a_bundle_without_its_descriptor_is_damaged_not_unknown(bundle):
+    (bundle.folder / "datapackage.json").unlink()
+    report = verify(bundle.folder)
+    assert any(d.startswith("datapackage.json: is missing") for d in report.damages)
 
 
 # -- hostile archives ---------------------------------------------------------------------------------------

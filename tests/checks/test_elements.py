@@ -54,8 +54,9 @@ def test_every_entry_has_a_citation_and_a_plausible_value() -> None:
         assert 0 < ref.S_per_atom < 200
         assert ref.u_per_atom >= E.ELEMENT_S_FLOOR
     # Reference species named in the brief are present with the right atoms per molecule.
-    for el, atoms in {"H": 2, "O": 2, "N": 2, "F": 2, "Cl": 2, "Br": 2, "I": 2, "C": 1, "P": 1, "Hg": 1}.items():
-        assert E.REFERENCES[el].atoms == atoms
+    atoms = {"H": 2, "O": 2, "N": 2, "F": 2, "Cl": 2, "Br": 2, "I": 2, "C": 1, "P": 1, "Hg": 1}
+    for el, n in atoms.items():
+        assert E.REFERENCES[el].atoms == n
 
 
 def _janaf() -> pd.DataFrame:

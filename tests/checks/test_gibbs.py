@@ -103,7 +103,8 @@ def test_element_without_reference_entropy_is_reported_as_not_checked() -> None:
 
 
 def _janaf() -> pd.DataFrame:
-    return pd.read_csv(Path(chemicals.__file__).parent / "Reactions" / "JANAF_1998.tsv", sep="\t", index_col=0)
+    path = Path(chemicals.__file__).parent / "Reactions" / "JANAF_1998.tsv"
+    return pd.read_csv(path, sep="\t", index_col=0)
 
 
 #: Left out of the ion test, with the reason: the carried CH+ row's ΔfG° is higher than the

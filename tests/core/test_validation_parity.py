@@ -226,6 +226,61 @@ def test_other_compiled_kinds_get_the_same_verdict(kind: str, data: st.DataObjec
     _same_verdict(kind, doc)
 
 
+FULL_MODELS = [
+    {"kind": "shomate", "source": "nist-webbook",
+     "ranges": [{"tmin": 298, "tmax": 1000, "A": 30.09, "B": 6.83, "C": 6.79, "D": -2.53, "E": 0.08,
+                 "F": -250.9, "G": 223.4, "H": -241.8}]},
+    {"kind": "nasa7", "source": "nist-webbook",
+     "ranges": [{"tmin": 200, "tmax": 1000, "a": [4.2, -2.0e-3, 6.5e-6, -5.5e-9, 1.8e-12, -30293.7, -0.85]}]},
+    {"kind": "tabulated", "points": [[298.15, 75.3], [350, 75.9]]},
+]
+
+
+@pytest.mark.parametrize("model", FULL_MODELS, ids=lambda m: m["kind"])
+def test_every_single_mutation_of_a_full_record_gets_the_same_verdict(model: dict, species_record) -> None:
+    """Exhaustive and deterministic: every place in a record that uses every optional field, every kind
+    of mutation, every replacement value."""
+    base = species_record(form="alpha", reference_state=False, cas="7732-18-5", notes="Key value.",
+                          cp_model=model)
+    base["properties"]["dfH298"].update(coverage=2, method="evaluated",
+                                        entered={"value": -68.315, "unit": "kcal/mol", "uncertainty": 0.01})
+    assert validation.errors("species", base, fast=False) == []
+    checked = 0
+    for how in HOWS:
+        for path in _places(base, how):
+            if how in ("replace-same-type", "replace-any"):
+                old = _at(base, path)
+                pool = (STRINGS if isinstance(old, str) else NUMBERS) if how == "replace-same-type" else OTHERS
+                variants = [(path, v) for v in pool]
+            else:
+                variants = [(path, None)]
+            for place, value in variants:
+                doc = copy.deepcopy(base)
+                parent, key = (_at(doc, place[:-1]), place[-1]) if place else (None, None)
+                if how == "delete":
+                    del parent[key]
+                elif how == "extra":
+                    _at(doc, place)["extra"] = 1
+                elif how == "bool-for-number":
+                    parent[key] = bool(parent[key])
+                elif how == "float-for-int":
+                    parent[key] = float(parent[key])
+                elif how == "string-for-number":
+                    parent[key] = repr(parent[key])
+                elif how == "wrap":
+                    parent[key] = [parent[key]]
+                elif how == "list-append":
+                    lst = _at(doc, place)
+                    lst.append(copy.deepcopy(lst[-1]) if lst else 1)
+                elif how == "list-pop":
+                    _at(doc, place).pop()
+                else:
+                    parent[key] = copy.deepcopy(value)
+                _same_verdict("species", doc)
+                checked += 1
+    assert checked > 1000, checked
+
+
 @pytest.mark.parametrize("doc", [None, [], "species", 1, True, {}, {"id": "x"}])
 def test_documents_that_are_not_records_get_the_same_verdict(doc: Any) -> None:
     _same_verdict("species", doc)

@@ -118,3 +118,42 @@ def test_check_command_names_damaged_file_as_a_process(clean_dataset):
     assert r.returncode == 1, (r.returncode, r.stdout, r.stderr)
     assert "species/h2o-l.json" in r.stdout and "not valid JSON" in r.stdout, r.stdout
     assert "Traceback" not in r.stderr
+
+
+BUNDLE_FLIPS = 40
+
+
+@pytest.mark.timeout(180)
+def test_verify_names_every_bit_flip_in_a_bundle(clean_dataset, tmp_path, capsys):
+    from tablekeeper import bundle
+
+    done = bundle.release(clean_dataset, "1.0.0", out=tmp_path / "out")
+    targets = sorted(p for p in done.folder.iterdir() if p.is_file()) + [done.archive]
+    capsys.readouterr()
+    assert cli.main(["verify", str(done.folder)]) == 0 and cli.main(["verify", str(done.archive)]) == 0
+    rng = random.Random(SEED)
+    named = 0
+    for k in range(BUNDLE_FLIPS):
+        path = targets[k % len(targets)]  # every file in turn, at a random bit
+        raw = path.read_bytes()
+        bit = rng.randrange(len(raw) * 8)
+        bad = bytearray(raw)
+        bad[bit // 8] ^= 1 << (bit % 8)
+        path.write_bytes(bytes(bad))
+        try:
+            target = done.archive if path == done.archive else done.folder
+            rc, out = _check_verify(target, capsys)
+        finally:
+            path.write_bytes(raw)
+        assert rc == 1, f"flip of bit {bit} in {path.name}: verify exit {rc}\n{out}"
+        assert path.name in out, f"flip of bit {bit} in {path.name}: not named\n{out}"
+        assert "Traceback" not in out
+        named += 1
+    print(f"bundle: {named} of {BUNDLE_FLIPS} bit flips over {len(targets)} files named by verify (exit 1)")
+
+
+def _check_verify(target: Path, capsys) -> tuple[int, str]:
+    capsys.readouterr()
+    rc = cli.main(["verify", str(target)])
+    cap = capsys.readouterr()
+    return rc, cap.out + cap.err

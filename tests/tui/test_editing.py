@@ -33,7 +33,8 @@ WATER = {
     "id": "h2o-l", "revision": 1, "formula": "H2O", "phase": "l", "charge": 0, "status": "reviewed",
     # CODATA Key Values for Thermodynamics (Cox, Wagman & Medvedev, 1989): ΔfH° = -285.830 ± 0.040 kJ/mol,
     # S° = 69.95 ± 0.03 J/(mol·K).
-    "properties": {"dfH298": {"value": -285.83, "unit": "kJ/mol", "uncertainty": 0.04, "source": "codata-1989"},
+    "properties": {"dfH298": {"value": -285.83, "unit": "kJ/mol", "uncertainty": 0.04,
+                              "source": "codata-1989"},
                    "S298": {"value": 69.95, "unit": "J/(mol*K)", "uncertainty": 0.03}},
 }
 
@@ -274,8 +275,8 @@ def test_apply_unit_fix_saves_and_journals(water_ds: Dataset) -> None:
 
 
 def test_sources_are_built_from_texts_and_saved(water_ds: Dataset) -> None:
-    res = build_source(None, {"id": "wagman-1982", "title": "The NBS tables", "authors": "Wagman, D. D.; Evans",
-                              "year": "1982", "kind": "compilation"})
+    res = build_source(None, {"id": "wagman-1982", "title": "The NBS tables",
+                              "authors": "Wagman, D. D.; Evans", "year": "1982", "kind": "compilation"})
     assert res.ok and res.record["authors"] == ["Wagman, D. D.", "Evans"]
     assert "year" in build_source(None, {"id": "x", "title": "t", "year": "soon"}).problems
     assert "kind" in build_source(None, {"id": "x", "title": "t", "kind": "rumour"}).problems
