@@ -41,7 +41,9 @@ class Formula:
 
     @property
     def hill(self) -> str:
-        body = "".join(f"{el}{n if n != 1 else ''}" for el, n in self.elements)
+        # An isotope (molmass reads "2H2O" and "D2O" as ²H₂O) is bracketed so the Hill string parses back.
+        body = "".join(f"{f'[{el}]' if el[0].isdigit() else el}{n if n != 1 else ''}"
+                       for el, n in self.elements)
         if self.charge:
             body += ("+" if self.charge > 0 else "-") + (str(abs(self.charge)) if abs(self.charge) != 1 else "")
         return body

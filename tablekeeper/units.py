@@ -86,13 +86,14 @@ def factor_to_canonical(unit: str, field: str) -> float:
         raise UnitError("a unit is required", field=field)
     try:
         q = ureg.Quantity(1, normalise(unit))
+        dim = q.dimensionality  # logarithmic units (Np, dB) have none: AttributeError
     except Exception as exc:  # pint raises several unrelated types on bad syntax
         raise UnitError(f"{unit!r} is not a unit tablekeeper understands ({type(exc).__name__})",
                         field=field) from None
     target = _CANONICAL_Q[kind.name]
-    if q.dimensionality == target.dimensionality:
+    if dim == target.dimensionality:
         f = q.to(target.units).magnitude
-    elif q.dimensionality == _PER_PARTICLE[kind.name].dimensionality:
+    elif dim == _PER_PARTICLE[kind.name].dimensionality:
         # A per-particle quantity (eV, J/K per molecule): molar after × N_A.
         f = (q * AVOGADRO * ureg.mol**-1).to(target.units).magnitude
     else:

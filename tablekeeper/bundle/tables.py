@@ -27,6 +27,7 @@ Layout choices a reader relies on:
 from __future__ import annotations
 
 import math
+import operator
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass
 from typing import Any
@@ -525,6 +526,34 @@ def thermo_text(species: Mapping[str, Mapping], step: float = THERMO_STEP_K,
     return "".join(parts)
 
 
+def _parse_column(column: Column, texts: tuple[str, ...]) -> list[Any] | None:
+    """Typed values of one column's cells in one pass, or None when any cell needs a closer look (the
+    caller then parses cell by cell, which names the line and the reason)."""
+    if column.type == "number":
+        try:
+            values = [float(t) if t else None for t in texts]
+        except ValueError:
+            return None
+        for v in values:
+            if v is None:
+                if column.required:
+                    return None
+            elif v - v != 0.0:  # not finite
+                return None
+        return values
+    if column.type == "string":
+        if column.required and "" in texts:
+            return None
+        lead = FORBIDDEN_LEAD
+        for t in texts:
+            if t and t[0] in lead:
+                return None
+        if column.enum and not set(texts) <= {"", *column.enum}:
+            return None
+        return [t if t else None for t in texts]
+    return None  # integers and booleans: few columns, parsed cell by cell
+
+
 def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20, canonical: bool = True,
                 ) -> tuple[list[Row], list[str], dict[str, set]]:
     """Typed rows of a table's CSV bytes, the problems met, and the set of values of each column that
@@ -561,61 +590,75 @@ def decode_rows(table: Table, data: bytes, *, keep: bool = True, limit: int = 20
     if header != table.header:
         found = ",".join(header or [])[:200]
         return [], [f"header is {found!r}, expected {','.join(table.header)[:200]!r}"], refs
-    rows: list[Row] = []
-    chunk: list[Row] = []
-    seen: set[tuple] = set()
     cols = table.columns
     names = [c.name for c in cols]
-    pk = table.primary_key
+    pk = [names.index(k) for k in table.primary_key]
+    ref_at = {name: names.index(name) for name in refs}
+    rows: list[Row] = []
+    seen: set[tuple] = set()
     again = hashlib.sha256(_header_line(table).encode("utf-8"))
-    typed_ok = True
+    state = {"ok": True}
 
-    def flush() -> None:
-        nonlocal typed_ok
-        if canonical and typed_ok and chunk:
+    def take(cells: list[list[str]], numbers: list[int]) -> None:
+        """Parse a chunk of lines column by column, then check keys and (optionally) canonical bytes."""
+        parsed = []
+        for j, (col, texts) in enumerate(zip(cols, zip(*cells, strict=True), strict=True)):
+            values = _parse_column(col, texts)
+            if values is None:
+                values = []
+                for k, t in enumerate(texts):
+                    try:
+                        values.append(parse_cell(t, col))
+                    except ValueError as exc:
+                        problem(f"row {numbers[k]}, column {names[j]}: {exc}")
+                        values.append(None)
+                        state["ok"] = False
+            parsed.append(values)
+        tuples = list(zip(*parsed, strict=True))
+        if pk:
+            keys = list(map(operator.itemgetter(*pk), tuples))
+            fresh = set(keys)
+            if len(fresh) != len(keys) or not seen.isdisjoint(fresh):
+                local: set = set()
+                for k, key in enumerate(keys):
+                    if key in seen or key in local:
+                        shown = ", ".join(map(str, key)) if isinstance(key, tuple) else str(key)
+                        problem(f"row {numbers[k]}: primary key ({shown}) appears twice")
+                    local.add(key)
+            seen.update(fresh)
+        for name, i in ref_at.items():
+            refs[name].update(v for v in parsed[i] if v is not None)
+        chunk = [dict(zip(names, vals, strict=True)) for vals in tuples]
+        if canonical and state["ok"]:
             try:
                 again.update(encode_text(table, chunk, header=False).encode("utf-8"))
             except InputError as exc:
                 problem(str(exc))
-                typed_ok = False
-        chunk.clear()
+                state["ok"] = False
+        if keep:
+            rows.extend(chunk)
 
+    # Rows are numbered as records, the header being row 1 (a quoted cell may span lines).
+    cells: list[list[str]] = []
+    numbers: list[int] = []
+    row_no = 1
     try:
-        for line_no, cells in enumerate(reader, start=2):
-            if len(cells) != len(cols):
-                problem(f"line {line_no}: {len(cells)} cells, expected {len(cols)}")
-                typed_ok = False
+        for row_no, row_cells in enumerate(reader, start=2):
+            if len(row_cells) != len(cols):
+                problem(f"row {row_no}: {len(row_cells)} cells, expected {len(cols)}")
+                state["ok"] = False
                 continue
-            row: Row = {}
-            for col, name, cell in zip(cols, names, cells, strict=True):
-                if cell == "" and not col.required:
-                    row[name] = None
-                    continue
-                try:
-                    row[name] = parse_cell(cell, col)
-                except ValueError as exc:
-                    problem(f"line {line_no}, column {name}: {exc}")
-                    row[name] = None
-                    typed_ok = False
-            if pk:
-                key = tuple(row[k] for k in pk)
-                if key in seen:
-                    problem(f"line {line_no}: primary key ({', '.join(map(str, key))}) appears twice")
-                seen.add(key)
-            for name, values in refs.items():
-                v = row.get(name)
-                if v is not None:
-                    values.add(v)
-            if keep:
-                rows.append(row)
-            chunk.append(row)
-            if len(chunk) >= 20000:
-                flush()
+            cells.append(row_cells)
+            numbers.append(row_no)
+            if len(cells) >= 20000:
+                take(cells, numbers)
+                cells, numbers = [], []
     except csv.Error as exc:
-        problem(f"does not parse as CSV ({exc})")
-        typed_ok = False
-    flush()
-    if canonical and typed_ok and not problems and again.digest() != hashlib.sha256(data).digest():
+        problem(f"row {row_no + 1}: does not parse as CSV ({exc})")
+        state["ok"] = False
+    if cells:
+        take(cells, numbers)
+    if canonical and state["ok"] and not problems and again.digest() != hashlib.sha256(data).digest():
         # Same rows, other bytes (CR LF line ends, "1.50" for 1.5, needless quotes): not as written.
         problem("is not in the canonical form a release writes (same values, other bytes)")
     if more:

@@ -7,9 +7,10 @@ Order of work, so that a refusal or a failure leaves nothing half done:
    ``releases/`` (compared as numbers, 1.10.0 > 1.9.0); neither the bundle folder nor its archive
    exists (a bundle is never overwritten); with ``git_tag`` the dataset folder has no uncommitted
    change and the tag ``<name>-v<version>`` does not exist yet;
-2. the gate: the check catalogue runs; any error, or any open blocking flag (read from ``flags/``
-   directly as well), refuses; so does any warning unless ``allow_warnings``, and the accepted warnings
-   and infos then go into ``findings.csv`` and the descriptor;
+2. the gate: the records are read once and the check catalogue runs on that snapshot, which is also
+   what gets written; any error, or any open blocking flag (read from the flag records directly as
+   well), refuses; so does any warning unless ``allow_warnings``, and the accepted warnings and infos
+   then go into ``findings.csv`` and the descriptor;
 3. every file is written into a private temporary folder beside the output, then the archive;
 4. the tag is created (when asked), the folder and the archive are renamed into place, a copy of the
    archive is kept in the dataset as ``releases/<name>-<version>.tar.gz`` (the next release's change
@@ -26,19 +27,20 @@ import datetime as _dt
 import os
 import shutil
 import tempfile
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from .. import jsonio, validation
-from ..checks import Finding, Report, check_dataset
+from ..checks import Context, Finding, Report, check_dataset
+from ..checks import run as run_checks
 from ..errors import InputError, ReleaseRefused
 from ..store import Dataset, atomic_write, utc_now
 from . import descriptor as _desc
 from . import gitsrc
 from .archive import write_archive
-from .diff import Diff, Snapshot, compare, markdown, next_version, parse_version, snapshot_of_bundle
+from .diff import BUMPS, Diff, Snapshot, compare, markdown, next_version, parse_version, snapshot_of_bundle
 from .tables import (
     CHANGES,
     DESCRIPTOR,
@@ -119,15 +121,20 @@ class GateRefused(ReleaseRefused):
         super().__init__(f"release refused: {gate.summary_text()}")
 
 
-def open_blocking_flags(dataset: Dataset) -> list[dict]:
-    flags = dataset.load_all("flags").records
+def open_blocking_flags(flags: Mapping[str, dict]) -> list[dict]:
+    """The open blocking flags, read from the flag records themselves (not only from the checks)."""
     return [f for _, f in sorted(flags.items()) if f.get("status") == "open" and f.get("blocking") is True]
 
 
-def gate(dataset: Dataset, *, allow_warnings: bool = False, report: Report | None = None) -> Gate:
-    """Run the checks (unless a report is given) and read the open blocking flags."""
-    return Gate(report if report is not None else check_dataset(dataset), open_blocking_flags(dataset),
-                allow_warnings)
+def gate(dataset: Dataset, *, allow_warnings: bool = False, report: Report | None = None,
+         flags: Mapping[str, dict] | None = None) -> Gate:
+    """The gate: the checks' report (run now unless given) and the open blocking flags (read now unless
+    the flag records are given)."""
+    if report is None:
+        report = check_dataset(dataset)
+    if flags is None:
+        flags = dataset.load_all("flags").records
+    return Gate(report, open_blocking_flags(flags), allow_warnings)
 
 
 # -- versions ---------------------------------------------------------------------------------------------
@@ -271,8 +278,7 @@ class Released:
         want = self.diff.bump
         old, new = parse_version(self.previous), parse_version(self.version)
         got = "major" if new[0] > old[0] else "minor" if new[1] > old[1] else "patch"
-        order = ("none", "patch", "minor", "major")
-        if order.index(got) < order.index(want):
+        if BUMPS.index(got) < BUMPS.index(want):
             return (f"the changes since {self.previous} call for a {want} version step "
                     f"({self.diff.bump_reason})")
         return None
@@ -310,14 +316,14 @@ def release(dataset: Dataset, version: str, *, out: str | os.PathLike[str] | Non
     if previous is not None:
         prev_path = previous_bundle(dataset, previous, released(dataset)[previous], out_dir)
 
-    say("running the checks", 0.05)
-    g = gate(dataset, allow_warnings=allow_warnings)
+    say("reading the records and running the checks", 0.05)
+    # One snapshot of the records is checked and written, so a save by someone else in between can
+    # never slip unchecked into the bundle.
+    ctx = Context.load(dataset)
+    g = gate(dataset, allow_warnings=allow_warnings, report=run_checks(ctx), flags=ctx.flags)
     if not g.passed:
         raise GateRefused(g)
-
-    say("reading the records", 0.25)
-    species = dataset.load_all("species").records
-    sources = dataset.load_all("sources").records
+    species, sources = ctx.species, ctx.sources
     created = release_time()
     out_dir.mkdir(parents=True, exist_ok=True)
     staging = Path(tempfile.mkdtemp(prefix=f".{name}-{version}.partial-", dir=out_dir))

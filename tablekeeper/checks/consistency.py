@@ -285,7 +285,8 @@ def gibbs_terms(ctx: Context) -> GibbsTerms:
         missing = np.isnan(s_el)
         sum_el = np.bincount(pos, weights=np.where(missing, 0.0, cnt * s_el), minlength=n)
         var_el = np.bincount(pos, weights=np.where(missing, 0.0, (cnt * u_el) ** 2), minlength=n)
-        var_el *= (T_REF / 1000.0) ** 2
+        # Not in place: np.bincount of an empty array is int64 even with float weights (empty dataset).
+        var_el = var_el * (T_REF / 1000.0) ** 2
         skip = np.zeros(n, dtype=bool)
         skipped: dict[str, str] = {}
         if not electron_gas:

@@ -127,7 +127,7 @@ class TablekeeperApp(App[None]):
     def role_text(self) -> str:
         roles = sorted(self.dataset.roles_of())
         if not any((self.dataset.meta.get("roles") or {}).values()):
-            return "single-user dataset"
+            return "single-user"
         return ", ".join(roles) if roles else "no role"
 
     @property
@@ -162,6 +162,23 @@ class TablekeeperApp(App[None]):
                             severity="warning", markup=False)
                 return
             self.pop_screen()
+
+    async def action_quit(self) -> None:
+        """Quit, but not over unsaved edits without asking."""
+        from .dialogs import ConfirmDialog
+
+        dirty = [s for s in self.screen_stack if getattr(s, "has_unsaved", lambda: False)()]
+        if not dirty:
+            self.exit()
+            return
+        names = ", ".join(str(getattr(s, "species_id", "?")) for s in dirty)
+
+        def answer(yes: bool | None) -> None:
+            if yes:
+                self.exit()
+
+        self.push_screen(ConfirmDialog("Quit with unsaved edits?",
+                                       [f"Unsaved edits in {names} will be lost."]), answer)
 
     def action_help(self) -> None:
         from .help_screen import HelpScreen

@@ -42,7 +42,7 @@ def help_text() -> str:
     from .app import TablekeeperApp
     from .conflict_screen import ConflictScreen
     from .dialogs import ConfirmDialog, FlagDialog, TextDialog
-    from .record_screen import RecordScreen
+    from .record_screen import FieldTable, RecordScreen
     from .sources_screen import SourceDialog
     from .vtable import VirtualTable
 
@@ -55,7 +55,7 @@ def help_text() -> str:
             sections.append((f"{entry.title} ({entry.keys.replace(',', ', ')})",
                              list(getattr(entry.screen_class, "BINDINGS", []))))
     sections += [
-        ("Record and editor (Enter on a species)", list(RecordScreen.BINDINGS)),
+        ("Record and editor (Enter on a species)", [*FieldTable.BINDINGS, *RecordScreen.BINDINGS]),
         ("Save conflict", list(ConflictScreen.BINDINGS)),
         ("Flag dialog", list(FlagDialog.BINDINGS)),
         ("Source editor", list(SourceDialog.BINDINGS)),

@@ -72,6 +72,14 @@ class _Row:
     severity: str = ""
 
 
+class FieldTable(VirtualTable):
+    """The record's fields; Enter edits the field under the cursor."""
+
+    BINDINGS: ClassVar[list[BindingType]] = [
+        Binding("enter", "select", "Edit", id="record.edit"),
+    ]
+
+
 class EditLine(Input):
     """The edit line: Enter keeps the text and goes back to the fields; Escape puts the text back."""
 
@@ -128,7 +136,7 @@ class RecordScreen(TkScreen):
         self.edit = RecordEdit(rec, sources=snap.sources if snap else None)
         yield InfoBar()
         yield Static("", id="banner", markup=False)
-        yield VirtualTable(id="record-table")
+        yield FieldTable(id="record-table")
         yield Static("", id="field-info", markup=False)
         line = EditLine(placeholder="Enter on a field edits it here", id="editor", compact=True,
                         select_on_focus=False, disabled=self.read_only)
@@ -200,7 +208,8 @@ class RecordScreen(TkScreen):
             self.deleted_on_disk = True
         else:
             self.deleted_on_disk = False
-            if int(disk.get("revision", 0)) != self.edit.revision and not self.saving:
+            # Revisions only grow: a lower one is a snapshot read before our own save landed.
+            if int(disk.get("revision", 0)) > self.edit.revision and not self.saving:
                 if self.edit.dirty:
                     self.changed_on_disk = True
                 else:
@@ -308,8 +317,8 @@ class RecordScreen(TkScreen):
         if row.kind == "section":
             return [printable(row.text)]
         if row.kind == "info":
-            return ["", "", "", printable(row.text)] if row.path is None else \
-                ["", printable(row.path), "", printable(row.text)]
+            label = SPEC_BY_PATH[row.path].label if row.path in SPEC_BY_PATH else ""
+            return ["", label, "", printable(row.text)]
         assert self.edit is not None and row.path is not None
         spec = SPEC_BY_PATH[row.path]
         return [self._row_marks(row.path), row_label(spec), printable(self.edit.text(row.path)),

@@ -55,12 +55,14 @@ class InfoBar(Static):
 def status_text(app: TablekeeperApp, where: str) -> str:
     snap = app.snapshot
     meta = app.dataset.meta
-    parts = [where, str(meta.get("title") or meta.get("name") or app.dataset.root.name)]
+    # The short name: a title would push the counts off an 80-column line.
+    parts = [where, str(meta.get("name") or app.dataset.root.name)]
     if snap is not None:
         parts.append(f"{len(snap.species)} species")
         if snap.report is not None:
             s = snap.report.summary
-            parts.append(f"{s['error']} errors {s['warning']} warnings")
+            parts.append(f"{s['error']} error{'s' if s['error'] != 1 else ''} "
+                         f"{s['warning']} warning{'s' if s['warning'] != 1 else ''}")
     parts.append(f"{app.user} ({app.role_text()})")
     if app.loading:
         parts.append("loading…")

@@ -144,3 +144,27 @@ def test_a_formula_like_name_that_slipped_past_the_store_is_refused_at_write_tim
         release(clean_dataset, "1.0.0", out=tmp_path / "out")
     assert "species.csv" in str(info.value) and "co-g" in str(info.value) and "name" in str(info.value)
     assert list((tmp_path / "out").iterdir()) == []
+
+
+def test_decoding_reports_types_required_cells_formulas_and_duplicate_keys():
+    data = (b"id,title,authors,year,identifier,kind,notes\n"
+            b"a,T,,19x9,,,\n"
+            b'b,"two\nlines",,,,,\n'
+            b"b,,,2000,,,\n"
+            b"=c,x,,,,,\n")
+    _, problems, _ = decode_rows(TABLE_BY_NAME["sources"], data)
+    assert sorted(problems) == sorted([
+        "row 2, column year: '19x9' is not an integer",
+        "row 4, column title: is empty but required",
+        "row 4: primary key (b) appears twice",
+        "row 5, column id: begins with '=', which a spreadsheet would run as a formula",
+    ])
+
+
+def test_decoding_reports_bytes_that_are_not_the_canonical_form():
+    table = TABLE_BY_NAME["sources"]
+    good = b"id,title,authors,year,identifier,kind,notes\na,T,,1989,,,\n"
+    assert decode_rows(table, good)[1] == []
+    for variant in (good.replace(b"\n", b"\r\n"), good.replace(b"a,T", b'a,"T"'),
+                    good.replace(b"1989", b"01989")):
+        assert decode_rows(table, variant)[1], variant

@@ -52,6 +52,8 @@ def test_formula_parse_returns_or_refuses(text: str) -> None:
 @example("kJ/mol*0", "dfH298")
 @example("1e400 kJ/mol", "dfH298")
 @example("kcal mol-1", "dfH298")
+@example("Np2", "dfG298")  # found by atheris: a logarithmic unit has no dimensionality (AttributeError)
+@example("dB/mol", "dfH298")
 def test_unit_factor_returns_a_finite_number_or_refuses(unit: str, field: str) -> None:
     try:
         f = units.factor_to_canonical(unit, field)
@@ -180,3 +182,19 @@ def test_reaction_equation_parses_or_refuses(text: str) -> None:
         thermo.parse_equation(text, _thermo_species())
     except InputError:
         pass
+
+
+def test_a_logarithmic_unit_on_the_command_line_is_refused_without_traceback(tmp_path):
+    """Regression (atheris): ``--unit dfH298=Np2`` escaped as an AttributeError from pint."""
+    import contextlib
+    import io
+
+    from tablekeeper import cli
+
+    ds = Dataset.init(tmp_path / "ds", "units")
+    f = tmp_path / "in.csv"
+    f.write_text("id,formula,phase,dfH298\nx,He,g,1\n")
+    err = io.StringIO()
+    with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
+        rc = cli.main(["import", str(ds.root), str(f), "--unit", "dfH298=Np2"])
+    assert rc == 2 and "'Np2' is not a unit tablekeeper understands" in err.getvalue(), err.getvalue()
