@@ -26,6 +26,7 @@ with atheris.instrument_imports(include=["tablekeeper", "molmass"]):
     from tablekeeper.importers import plan_import
     from tablekeeper.model import FIELDS
     from tablekeeper.store import Dataset
+    from tablekeeper.thermo import parse_equation
 
 _TMP = Path(tempfile.mkdtemp(prefix="tk-atheris-"))
 _DS: Dataset | None = None
@@ -35,8 +36,11 @@ def _dataset() -> Dataset:
     global _DS
     if _DS is None:
         _DS = Dataset.init(_TMP / "ds", "fuzz")
-        _DS.save("species", {"id": "water", "formula": "H2O", "phase": "l", "charge": 0, "status": "draft",
-                             "properties": {}}, expected_revision=None)
+        _DS.save(
+            "species",
+            {"id": "water", "formula": "H2O", "phase": "l", "charge": 0, "status": "draft", "properties": {}},
+            expected_revision=None,
+        )
     return _DS
 
 
@@ -89,22 +93,34 @@ def t_csv(data: bytes) -> None:
         pass
 
 
-_SPECIES = {i: {"id": i, "formula": f, "phase": p, "charge": c, "status": "draft", "properties": {}}
-            for i, f, p, c in (("h2-g", "H2", "g", 0), ("o2-g", "O2", "g", 0), ("h2o-l", "H2O", "l", 0),
-                               ("h-aq", "H+", "aq", 1), ("oh-aq", "OH-", "aq", -1))}
+_SPECIES = {
+    i: {"id": i, "formula": f, "phase": p, "charge": c, "status": "draft", "properties": {}}
+    for i, f, p, c in (
+        ("h2-g", "H2", "g", 0),
+        ("o2-g", "O2", "g", 0),
+        ("h2o-l", "H2O", "l", 0),
+        ("h-aq", "H+", "aq", 1),
+        ("oh-aq", "OH-", "aq", -1),
+    )
+}
 
 
 def t_equation(data: bytes) -> None:
-    from tablekeeper.thermo import parse_equation
-
     try:
         parse_equation(atheris.FuzzedDataProvider(data).ConsumeUnicodeNoSurrogates(200), _SPECIES)
     except InputError:
         pass
 
 
-TARGETS = {"formula": t_formula, "unit": t_unit, "quantity": t_quantity, "json": t_json,
-           "journal": t_journal, "csv": t_csv, "equation": t_equation}
+TARGETS = {
+    "formula": t_formula,
+    "unit": t_unit,
+    "quantity": t_quantity,
+    "json": t_json,
+    "journal": t_journal,
+    "csv": t_csv,
+    "equation": t_equation,
+}
 
 
 def main() -> None:

@@ -64,7 +64,9 @@ def _formula(counts: dict[str, int]) -> str:
 
 def _formulas(rng: random.Random):
     """Unique element counts, in a seeded order: C 1-40, H 0-81, O 0-6, N 0-3, S 0-1, Cl 0-2."""
-    space = itertools.product(range(1, 41), range(0, 82, 1), range(0, 7), range(0, 4), range(0, 2), range(0, 3))
+    space = itertools.product(
+        range(1, 41), range(0, 82, 1), range(0, 7), range(0, 4), range(0, 2), range(0, 3)
+    )
     pool = [c for c in space if c[1] <= 2 * c[0] + 2 + c[3] and sum(c[2:]) <= 6]
     rng.shuffle(pool)
     for c, h, o, n, s, cl in pool:
@@ -72,8 +74,13 @@ def _formulas(rng: random.Random):
 
 
 def _pv(value: float, unit: str, u: float, source: str, digits: int = 3) -> dict:
-    return {"value": round(value, digits), "unit": unit, "uncertainty": u, "source": source,
-            "method": "estimated"}
+    return {
+        "value": round(value, digits),
+        "unit": unit,
+        "uncertainty": u,
+        "source": source,
+        "method": "estimated",
+    }
 
 
 def _sackur_tetrode(mass: float) -> float:
@@ -96,17 +103,32 @@ def _cp_model(kind: str, cp298: float, slope: float, dfh: float, s298: float, so
         # H(T) = A t + B t²/2 + F in kJ/mol (A in J/(mol·K), t = T/1000): equal to ΔfH° at 298.15 K.
         F = dfh - (A * t0 + B * t0**2 / 2)
         G = s298 - (A * math.log(t0) + B * t0)
-        rng_ = {"tmin": 200.0, "tmax": 1500.0, "A": A, "B": B, "C": 0.0, "D": 0.0, "E": 0.0, "F": F, "G": G,
-                "H": dfh}
+        rng_ = {
+            "tmin": 200.0,
+            "tmax": 1500.0,
+            "A": A,
+            "B": B,
+            "C": 0.0,
+            "D": 0.0,
+            "E": 0.0,
+            "F": F,
+            "G": G,
+            "H": dfh,
+        }
         return {"kind": "shomate", "source": source, "ranges": [rng_]}
     if kind == "nasa7":
         a1, a2 = a / R, slope / R
         a6 = dfh * 1000.0 / R - (a1 * T0 + a2 * T0**2 / 2)
         a7 = s298 / R - (a1 * math.log(T0) + a2 * T0)
         coeffs = [a1, a2, 0.0, 0.0, 0.0, a6, a7]
-        return {"kind": "nasa7", "source": source,
-                "ranges": [{"tmin": 200.0, "tmax": 1000.0, "a": coeffs},
-                           {"tmin": 1000.0, "tmax": 3000.0, "a": list(coeffs)}]}
+        return {
+            "kind": "nasa7",
+            "source": source,
+            "ranges": [
+                {"tmin": 200.0, "tmax": 1000.0, "a": coeffs},
+                {"tmin": 1000.0, "tmax": 3000.0, "a": list(coeffs)},
+            ],
+        }
     pts = [[float(T), round(a + slope * T, 6)] for T in range(200, 1001, 100)]
     return {"kind": "tabulated", "source": source, "points": pts}
 
@@ -115,12 +137,22 @@ def build_species(n: int, rng: random.Random, n_sources: int) -> dict[str, dict]
     """n species (the element references included), clean."""
     out: dict[str, dict] = {}
     for el, (ident, formula, phase, form, s, cp) in REFERENCES.items():
-        rec = {"id": ident, "formula": formula, "phase": phase, "charge": 0, "status": "reviewed",
-               "reference_state": True, "name": f"{el} reference state", "revision": 1,
-               "properties": {"dfH298": _pv(0.0, "kJ/mol", 0.0, "src-000"),
-                              "dfG298": _pv(0.0, "kJ/mol", 0.0, "src-000"),
-                              "S298": _pv(s, "J/(mol*K)", 0.05, "src-000"),
-                              "Cp298": _pv(cp, "J/(mol*K)", 0.05, "src-000")}}
+        rec = {
+            "id": ident,
+            "formula": formula,
+            "phase": phase,
+            "charge": 0,
+            "status": "reviewed",
+            "reference_state": True,
+            "name": f"{el} reference state",
+            "revision": 1,
+            "properties": {
+                "dfH298": _pv(0.0, "kJ/mol", 0.0, "src-000"),
+                "dfG298": _pv(0.0, "kJ/mol", 0.0, "src-000"),
+                "S298": _pv(s, "J/(mol*K)", 0.05, "src-000"),
+                "Cp298": _pv(cp, "J/(mol*K)", 0.05, "src-000"),
+            },
+        }
         if form:
             rec["form"] = form
         out[ident] = rec
@@ -154,11 +186,21 @@ def build_species(n: int, rng: random.Random, n_sources: int) -> dict[str, dict]
             else:
                 cp = 0.8 * 3 * atoms * R
             cp = round(cp, 3)
-            rec = {"id": ident, "formula": formula, "phase": phase, "charge": 0, "status": "draft",
-                   "name": f"synthetic {formula} ({phase})", "revision": 1,
-                   "properties": {"dfH298": _pv(h, "kJ/mol", 0.8, source), "dfG298": _pv(g, "kJ/mol", 1.0, source),
-                                  "S298": _pv(s, "J/(mol*K)", 0.6, source),
-                                  "Cp298": _pv(cp, "J/(mol*K)", 0.5, source)}}
+            rec = {
+                "id": ident,
+                "formula": formula,
+                "phase": phase,
+                "charge": 0,
+                "status": "draft",
+                "name": f"synthetic {formula} ({phase})",
+                "revision": 1,
+                "properties": {
+                    "dfH298": _pv(h, "kJ/mol", 0.8, source),
+                    "dfG298": _pv(g, "kJ/mol", 1.0, source),
+                    "S298": _pv(s, "J/(mol*K)", 0.6, source),
+                    "Cp298": _pv(cp, "J/(mol*K)", 0.5, source),
+                },
+            }
             if rng.random() < 0.3:
                 slope = 0.0 if atoms == 1 else cp * 0.00008
                 rec["cp_model"] = _cp_model(model_kinds[len(out) % 3], cp, slope, h, s, source)
@@ -206,20 +248,36 @@ def write_dataset(root: Path, name: str, species: dict[str, dict], n_sources: in
         shutil.rmtree(root)
     for kind in ("species", "sources", "reactions", "flags", "releases"):
         (root / kind).mkdir(parents=True)
-    meta = {"name": name, "title": f"Synthetic benchmark dataset ({len(species)} species)", "schema_version": 1,
-            "standard_pressure_bar": 1, "reference_temperature_K": 298.15,
-            "element_references": {el: ref[0] for el, ref in REFERENCES.items()},
-            "policy": {"tolerance_k": 2, "require_uncertainty": True, "max_relative_uncertainty": 0.5}}
+    meta = {
+        "name": name,
+        "title": f"Synthetic benchmark dataset ({len(species)} species)",
+        "schema_version": 1,
+        "standard_pressure_bar": 1,
+        "reference_temperature_K": 298.15,
+        "element_references": {el: ref[0] for el, ref in REFERENCES.items()},
+        "policy": {"tolerance_k": 2, "require_uncertainty": True, "max_relative_uncertainty": 0.5},
+    }
     (root / "dataset.json").write_bytes(jsonio.dumps(meta))
     for i in range(n_sources):
-        src = {"id": f"src-{i:03d}", "revision": 1, "title": f"Synthetic compilation {i}", "year": 1990 + i % 30,
-               "kind": "compilation"}
+        src = {
+            "id": f"src-{i:03d}",
+            "revision": 1,
+            "title": f"Synthetic compilation {i}",
+            "year": 1990 + i % 30,
+            "kind": "compilation",
+        }
         (root / "sources" / f"{src['id']}.json").write_bytes(jsonio.dumps(src))
     folder = root / "species"
     for ident, rec in species.items():
         (folder / f"{ident}.json").write_bytes(jsonio.dumps(rec))
-    entry = {"action": "init", "reason": f"generated {name}", "revision": 0, "target": "dataset",
-             "time": "2024-01-01T00:00:00Z", "user": "generator"}
+    entry = {
+        "action": "init",
+        "reason": f"generated {name}",
+        "revision": 0,
+        "target": "dataset",
+        "time": "2024-01-01T00:00:00Z",
+        "user": "generator",
+    }
     (root / "journal.jsonl").write_bytes(jsonio.dumps_line(entry))
     (root / ".gitignore").write_text(".tablekeeper.lock\n")
 

@@ -173,13 +173,15 @@ def measure(size_label: str, data: Path, skip_app: bool) -> dict:
         inproc = json.loads(out.strip().splitlines()[-1])
         res["load"], res["checks_only"], res["import"] = inproc["load"], inproc["checks"], inproc["import"]
         res["check"], res["check_rss"], out, rc = peak(tk("check", str(root), "--format", "json"))
-        summary = json.loads(out[out.index("{"):])["summary"] if "{" in out else {}
+        summary = json.loads(out[out.index("{") :])["summary"] if "{" in out else {}
         res["check_exit"], res["findings"] = rc, summary
         clean = clean_copy(root, faults, work / "clean")
         bundles = work / "bundles"
         env = dict(os.environ, SOURCE_DATE_EPOCH="1700000000")
         res["release"], res["release_rss"], out, rc = peak(
-            tk("release", str(clean), "--version", "1.0.0", "--out", str(bundles), "--allow-warnings"), env=env)
+            tk("release", str(clean), "--version", "1.0.0", "--out", str(bundles), "--allow-warnings"),
+            env=env,
+        )
         res["release_exit"] = rc
         if rc != 0:
             print(f"release refused ({rc}):\n{out[-2000:]}", flush=True)
@@ -190,16 +192,24 @@ def measure(size_label: str, data: Path, skip_app: bool) -> dict:
             changed = work / "changed"
             res["diff_changed"] = changed_copy(clean, changed)
             res["diff"], res["diff_rss"], out, res["diff_exit"] = peak(tk("diff", str(folder), str(changed)))
-            fl = ("import sys; from frictionless import validate; r = validate(sys.argv[1]); "
-                  "print(r.valid, r.stats.get('errors') if hasattr(r, 'stats') else '')")
-            res["frictionless"], res["frictionless_rss"], out, _ = peak([PY, "-c", fl, str(folder / "datapackage.json")])
+            fl = (
+                "import sys; from frictionless import validate; r = validate(sys.argv[1]); "
+                "print(r.valid, r.stats.get('errors') if hasattr(r, 'stats') else '')"
+            )
+            res["frictionless"], res["frictionless_rss"], out, _ = peak(
+                [PY, "-c", fl, str(folder / "datapackage.json")]
+            )
             res["frictionless_out"] = out.strip().splitlines()[-1][:120] if out.strip() else ""
         if not skip_app:
-            wall, rss, out, rc = peak([PY, "-c", APP, str(root)])
+            _, rss, out, rc = peak([PY, "-c", APP, str(root)])
             if rc == 0:
                 app = json.loads(out.strip().splitlines()[-1])
-                res.update(app_first=app["first"], app_press=app["press_median"], app_press_max=app["press_max"],
-                           app_rss=rss)
+                res.update(
+                    app_first=app["first"],
+                    app_press=app["press_median"],
+                    app_press_max=app["press_max"],
+                    app_rss=rss,
+                )
             else:
                 res["app_error"] = out[-1500:]
     finally:
@@ -219,9 +229,17 @@ def table(results: list[dict]) -> str:
         secs = r[key]
         ratio = f"{secs / r[base]:.1f}×" if r.get(base) else ""
         target = TARGETS.get((key, r["size"]))
-        rows.append((name, r["size"], f"{secs:.3f}", ratio, f"{secs / r['species'] * 1e6:.0f}",
-                     f"{r[rss_key]:.0f}" if rss_key and rss_key in r else "",
-                     f"< {target:g} s" if target else ""))
+        rows.append(
+            (
+                name,
+                r["size"],
+                f"{secs:.3f}",
+                ratio,
+                f"{secs / r['species'] * 1e6:.0f}",
+                f"{r[rss_key]:.0f}" if rss_key and rss_key in r else "",
+                f"< {target:g} s" if target else "",
+            )
+        )
 
     for r in results:
         add("floor: read + parse (orjson)", r, "floor")
@@ -233,13 +251,27 @@ def table(results: list[dict]) -> str:
         add("diff bundle vs dataset", r, "diff", "diff_rss")
         add("frictionless validate", r, "frictionless", "frictionless_rss")
         if "verify" in r and "frictionless" in r:
-            rows.append(("  verify ÷ frictionless", r["size"], "", f"{r['verify'] / r['frictionless']:.2f}×", "", "",
-                         ""))
+            rows.append(
+                (
+                    "  verify ÷ frictionless",
+                    r["size"],
+                    "",
+                    f"{r['verify'] / r['frictionless']:.2f}×",
+                    "",
+                    "",
+                    "",
+                )
+            )
         add("app: first screen", r, "app_first", "app_rss")
         add("app: key press (median)", r, "app_press")
     widths = [max(len(str(row[i])) for row in rows) for i in range(len(rows[0]))]
-    lines = ["  ".join(str(c).ljust(w) if i == 0 else str(c).rjust(w) for i, (c, w) in enumerate(zip(row, widths)))
-             for row in rows]
+    lines = [
+        "  ".join(
+            str(c).ljust(w) if i == 0 else str(c).rjust(w)
+            for i, (c, w) in enumerate(zip(row, widths, strict=True))
+        )
+        for row in rows
+    ]
     lines.insert(1, "  ".join("-" * w for w in widths))
     return "\n".join(lines)
 
@@ -253,7 +285,8 @@ def machine() -> str:
                 break
     except OSError:
         pass
-    return f"{os.cpu_count()} CPUs (nproc {len(os.sched_getaffinity(0))}), {cpu}, Python {platform.python_version()}"
+    nproc = len(os.sched_getaffinity(0))
+    return f"{os.cpu_count()} CPUs (nproc {nproc}), {cpu}, Python {platform.python_version()}"
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -274,8 +307,21 @@ def main(argv: list[str] | None = None) -> int:
     print(machine())
     print(table(results))
     for r in results:
-        extra = {k: r[k] for k in ("findings", "check_exit", "release_exit", "verify_exit", "diff_exit",
-                                    "diff_changed", "frictionless_out", "app_press_max", "app_error") if k in r}
+        extra = {
+            k: r[k]
+            for k in (
+                "findings",
+                "check_exit",
+                "release_exit",
+                "verify_exit",
+                "diff_exit",
+                "diff_changed",
+                "frictionless_out",
+                "app_press_max",
+                "app_error",
+            )
+            if k in r
+        }
         print(f"{r['size']}: {extra}")
     if args.json:
         Path(args.json).write_text(json.dumps(results, indent=1))

@@ -40,22 +40,15 @@ def _describe(rec: dict) -> str:
 
 def format_table(rec: dict, frame, model) -> str:
     """Aligned columns with units in a second header line."""
-    from .thermo import property_value
+    from .thermo import format_table_lines, property_value
 
     s298 = property_value(rec, "S298")
     src = f", source {model.source}" if model.source else ""
     lines = [_describe(rec),
              printable(f"Cp model: {model.kind}, {model.range_text()}{src}; "
                        f"S°(298.15 K) = {s298[0]:g} J/(mol·K)" if s298 else "")]
-    heads = [("T", "K", 2), ("Cp°", "J/(mol·K)", 3), ("S°", "J/(mol·K)", 3),
-             ("H°−H°(298.15)", "kJ/mol", 3), ("G°−H°(298.15)", "kJ/mol", 3)]
-    cells = [[f"{v:.{d}f}" for v in frame.iloc[:, j]] for j, (_, _, d) in enumerate(heads)]
-    widths = [max(len(h), len(u), *(len(c) for c in col))
-              for (h, u, _), col in zip(heads, cells, strict=True)]
-    lines.append("  ".join(h.rjust(w) for (h, _, _), w in zip(heads, widths, strict=True)))
-    lines.append("  ".join(u.rjust(w) for (_, u, _), w in zip(heads, widths, strict=True)))
-    for row in zip(*cells, strict=True):
-        lines.append("  ".join(c.rjust(w) for c, w in zip(row, widths, strict=True)))
+    # The columns and their decimals live in the core, shared with the terminal app.
+    lines += format_table_lines(frame)
     return "\n".join(lines)
 
 
@@ -76,47 +69,11 @@ def cmd_table(args: argparse.Namespace) -> int:
     return Exit.OK
 
 
-_VERDICT_TEXT = {
-    "spontaneous": "spontaneous: ΔrG° < 0, K > 1 (products favoured at the standard state)",
-    "non-spontaneous": "non-spontaneous: ΔrG° > 0, K < 1 (reactants favoured at the standard state)",
-    "at equilibrium": "at equilibrium: ΔrG° is zero within its expanded uncertainty (k = 2), K ≈ 1",
-}
-
-
 def format_reaction(res) -> str:
-    from .thermo import CAUTION, format_uncertain
+    # The rows and their wording live in the core, shared with the terminal app.
+    from .thermo import format_reaction as text
 
-    def sign(nu: float) -> str:
-        return f"{nu:+g}"
-
-    rows: list[tuple[str, str]] = [
-        ("reaction", printable(res.equation)),
-        ("species (ν)", printable(", ".join(f"{sign(nu)} {s}" for nu, s in res.terms))),
-        ("T", f"{res.T:g} K" + (" (Cp models used)" if res.models_used else "")),
-        ("ΔrH°", format_uncertain(res.drH, "kJ/mol")),
-        ("ΔrS°", format_uncertain(res.drS, "J/(mol·K)", decimals=3)),
-        ("ΔrG°", format_uncertain(res.drG, "kJ/mol")),
-    ]
-    if res.drG_from_dfG is not None:
-        rows.append(("ΔrG° from ΔfG°", format_uncertain(res.drG_from_dfG, "kJ/mol")))
-    rows += [
-        ("log10 K", format_uncertain(res.log10K, decimals=3)),
-        ("ΔS surroundings", format_uncertain(res.dS_surroundings, "J/(mol·K)")),
-        ("ΔS universe", format_uncertain(res.dS_universe, "J/(mol·K)")),
-        ("verdict", _VERDICT_TEXT.get(res.verdict, res.verdict)),
-    ]
-    if res.t_sign_change is not None:
-        how = f" ({res.t_sign_change_method})" if res.t_sign_change_method else ""
-        rows.append(("ΔrG° = 0 at", format_uncertain(res.t_sign_change, "K", decimals=1) + how))
-    if res.t_sign_change_note:
-        rows.append(("", res.t_sign_change_note))
-    if res.exact_inputs:
-        rows.append(("no uncertainty", printable(", ".join(res.exact_inputs)) + " (counted as exact)"))
-    rows.append(("", "± are standard uncertainties (k = 1), propagated to first order (GUM)"))
-    width = max(len(k) for k, _ in rows)
-    lines = [f"{k:<{width}}  {v}" for k, v in rows]
-    lines.append(CAUTION)
-    return "\n".join(lines)
+    return text(res)
 
 
 def cmd_reaction(args: argparse.Namespace) -> int:

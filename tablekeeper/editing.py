@@ -536,6 +536,26 @@ def apply_unit_fix(dataset: Dataset, finding: Any, *, reason: str | None = None)
     return dataset.save("species", new, expected_revision=int(record.get("revision", 0)), reason=why)
 
 
+def save_cp_model(dataset: Dataset, record: Mapping, model: Mapping, reason: str) -> dict:
+    """Replace a record's ``cp_model`` (for instance with a fitted model), journaled with ``reason``.
+
+    ``record`` is the record as the user saw it: its revision is the one expected on disk, so a save by
+    someone else in between gives a ConflictError rather than being overwritten. The old model (a
+    tabulated model's points included) stays in the journal's field-level old values.
+    """
+    dataset.require("edit")
+    ident = str(record.get("id"))
+    reason = (reason or "").strip()
+    if not reason:
+        raise InputError("a save needs a reason for the journal", record=ident, field="reason")
+    new = copy.deepcopy(dict(record))
+    new["cp_model"] = copy.deepcopy(dict(model))
+    errs = validation.errors("species", new)
+    if errs:
+        raise InputError(errs[0][1], record=ident, field=pointer_path(errs[0][0]))
+    return dataset.save("species", new, expected_revision=int(record.get("revision", 0)), reason=reason)
+
+
 # -- sources -------------------------------------------------------------------------------------------
 
 #: Fields of a source an editor offers, in order; authors are one text separated by ';'.

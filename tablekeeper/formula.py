@@ -5,8 +5,11 @@ typed by hand. The notation tablekeeper documents:
 
 * elements with counts and nested parentheses or brackets: ``Ca(OH)2``, ``K4[Fe(CN)6]``;
 * hydrates with a dot: ``CuSO4.5H2O`` (``·`` and ``*`` are read as the dot);
-* charge as a trailing sign with an optional count, either order: ``Cl-``, ``Na+``, ``SO4-2``,
-  ``SO4 2-``, ``Fe+3``, ``Fe3+`` is *not* accepted because it is ambiguous with a count; write ``Fe+3``.
+* charge as a trailing sign with an optional count: ``Cl-``, ``Na+``, ``SO4-2``, ``SO4 2-``, ``Fe+3``.
+  Write the count after the sign: ``Fe3+`` reads as Fe₃ with charge +1 (a count before a lone sign
+  is the element count, as in ``NH4+``).
+* natural elements only: isotope labels (``D``, ``T``, a leading mass number such as ``2H``) are
+  refused, because the element reference states and the checks know the natural elements only.
 """
 
 from __future__ import annotations
@@ -41,8 +44,7 @@ class Formula:
 
     @property
     def hill(self) -> str:
-        # An isotope (molmass reads "2H2O" and "D2O" as ²H₂O) is bracketed so the Hill string parses back.
-        body = "".join(f"{f'[{el}]' if el[0].isdigit() else el}{n if n != 1 else ''}"
+        body = "".join(f"{el}{n if n != 1 else ''}"
                        for el, n in self.elements)
         if self.charge:
             body += ("+" if self.charge > 0 else "-") + (str(abs(self.charge)) if abs(self.charge) != 1 else "")
@@ -90,6 +92,10 @@ def parse(text: str) -> Formula:
     except Exception as exc:
         reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise FormulaError(f"{text!r} does not parse as a formula ({reason})", field="formula") from None
+    isotopes = sorted(sym for sym in counts if not sym[:1].isalpha())
+    if isotopes:
+        raise FormulaError(f"{text!r} names the isotope {isotopes[0]} (from D, T or a leading mass number); "
+                           "only natural elements are supported", field="formula")
     if not counts:
         raise FormulaError(f"{text!r} names no element", field="formula")
     # molmass leaves the mass of the neutral formula; remove the electrons of the charge.

@@ -108,50 +108,60 @@ def _get(d: object, key: str):
     return d.get(key) if isinstance(d, dict) else None
 
 
+def _num(v: object) -> float:
+    return float(v) if isinstance(v, int | float) and not isinstance(v, bool) else np.nan
+
+
+def _property_columns(pv: object) -> tuple:
+    """(value, standard uncertainty, source, method, entered unit) of one property object."""
+    if not isinstance(pv, dict):
+        return (np.nan, np.nan, None, None, None)
+    u = pv.get("uncertainty")
+    k = pv.get("coverage", 1.0) or 1.0
+    ok = (isinstance(u, int | float) and not isinstance(u, bool) and isinstance(k, int | float)
+          and not isinstance(k, bool) and k > 0)
+    ent = pv.get("entered")
+    return (_num(pv.get("value")), float(u) / float(k) if ok else np.nan, pv.get("source"), pv.get("method"),
+            ent.get("unit") if isinstance(ent, dict) else None)
+
+
+def _formula_columns(text: object) -> tuple:
+    """(hill, atoms, molar mass, charge, error) from the formula parser (cached per formula)."""
+    try:
+        f = _formula.parse(text)
+        return (f.hill, f.atoms, f.molar_mass, f.charge, None)
+    except (FormulaError, TypeError) as exc:
+        return (None, np.nan, np.nan, np.nan, str(getattr(exc, "reason", exc)))
+
+
+_SCALAR_COLUMNS = ("id", "name", "formula", "phase", "form", "charge", "reference_state", "status", "cp_kind")
+_FORMULA_COLUMNS = ("hill", "atoms", "molar_mass", "formula_charge", "formula_error")
+_PROPERTY_COLUMNS = tuple((f, f"u_{f}", f"src_{f}", f"method_{f}", f"entered_unit_{f}") for f in FIELDS)
+
+
 def species_frame(records: Mapping[str, Mapping]) -> pd.DataFrame:
     """One row per species, indexed by id. Numbers are float64 (NaN where missing); uncertainties are
     standard uncertainties (U/k). Formula-derived columns come from the formula parser (cached)."""
     ids = sorted(records)
-    cols: dict[str, list] = {c: [] for c in FRAME_COLUMNS}
+    rows = []
     for ident in ids:
         rec = records[ident]
-        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
-        cols["id"].append(ident)
-        cols["name"].append(rec.get("name"))
-        cols["formula"].append(rec.get("formula"))
-        cols["phase"].append(rec.get("phase"))
-        cols["form"].append(rec.get("form"))
+        props = rec.get("properties")
+        if not isinstance(props, dict):
+            props = {}
         ch = rec.get("charge")
-        cols["charge"].append(ch if isinstance(ch, int) and not isinstance(ch, bool) else np.nan)
-        cols["reference_state"].append(bool(rec.get("reference_state", False)))
-        cols["status"].append(rec.get("status"))
-        cols["cp_kind"].append(_get(rec.get("cp_model"), "kind"))
-        try:
-            f = _formula.parse(rec.get("formula"))
-            cols["hill"].append(f.hill)
-            cols["atoms"].append(f.atoms)
-            cols["molar_mass"].append(f.molar_mass)
-            cols["formula_charge"].append(f.charge)
-            cols["formula_error"].append(None)
-        except (FormulaError, TypeError) as exc:
-            cols["hill"].append(None)
-            cols["atoms"].append(np.nan)
-            cols["molar_mass"].append(np.nan)
-            cols["formula_charge"].append(np.nan)
-            cols["formula_error"].append(str(getattr(exc, "reason", exc)))
+        row = [ident, rec.get("name"), rec.get("formula"), rec.get("phase"), rec.get("form"),
+               ch if isinstance(ch, int) and not isinstance(ch, bool) else np.nan,
+               rec.get("reference_state") is True, rec.get("status"), _get(rec.get("cp_model"), "kind")]
+        row.extend(_formula_columns(rec.get("formula")))
         for fld in FIELDS:
-            pv = props.get(fld)
-            v = _get(pv, "value")
-            cols[fld].append(float(v) if isinstance(v, int | float) and not isinstance(v, bool) else np.nan)
-            u = _get(pv, "uncertainty")
-            k = _get(pv, "coverage") or 1.0
-            ok = isinstance(u, int | float) and not isinstance(u, bool) and isinstance(k, int | float) and k > 0
-            cols[f"u_{fld}"].append(float(u) / float(k) if ok else np.nan)
-            cols[f"src_{fld}"].append(_get(pv, "source"))
-            cols[f"method_{fld}"].append(_get(pv, "method"))
-            cols[f"entered_unit_{fld}"].append(_get(_get(pv, "entered"), "unit"))
-    frame = pd.DataFrame(cols, columns=FRAME_COLUMNS)
+            row.extend(_property_columns(props.get(fld)))
+        rows.append(row)
+    columns = [*_SCALAR_COLUMNS, *_FORMULA_COLUMNS, *(c for group in _PROPERTY_COLUMNS for c in group)]
+    assert tuple(columns) == tuple(FRAME_COLUMNS)
+    frame = pd.DataFrame.from_records(rows, columns=columns) if rows else pd.DataFrame(columns=columns)
     for c in ["charge", "atoms", "molar_mass", "formula_charge", *FIELDS, *(f"u_{f}" for f in FIELDS)]:
         frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
+    frame["reference_state"] = frame["reference_state"].astype(bool)
     frame.index = pd.Index(ids, name="species")
     return frame

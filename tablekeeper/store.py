@@ -120,6 +120,26 @@ def field_changes(old: dict | None, new: dict | None) -> list[dict[str, Any]]:
 _MISSING = object()
 
 
+def _line_start(fd: int, size: int) -> int:
+    """Offset just after the last newline before ``size`` (0 when there is none), however long the
+    last line is."""
+    end = size
+    while end > 0:
+        start = max(0, end - (1 << 20))
+        cut = os.pread(fd, end - start, start).rfind(b"\n")
+        if cut >= 0:
+            return start + cut + 1
+        end = start
+    return 0
+
+
+def _is_entry(raw: bytes) -> bool:
+    try:
+        return isinstance(orjson.loads(raw), dict)
+    except orjson.JSONDecodeError:
+        return False
+
+
 def _fsync_dir(path: Path) -> None:
     fd = os.open(path, os.O_RDONLY)
     try:
@@ -388,14 +408,14 @@ class Dataset:
         fd = os.open(path, os.O_RDWR | os.O_CREAT | os.O_APPEND, _new_file_mode(self.root))
         try:
             size = os.fstat(fd).st_size
-            if size:
-                # A torn last line from a killed writer: set it aside, never glue onto it.
-                last = os.pread(fd, 1, size - 1)
-                if last != b"\n":
-                    block = os.pread(fd, min(size, 1 << 20), max(0, size - (1 << 20)))
-                    cut = block.rfind(b"\n")
-                    keep = size - len(block) + cut + 1
-                    torn = os.pread(fd, size - keep, keep)
+            if size and os.pread(fd, 1, size - 1) != b"\n":
+                keep = _line_start(fd, size)
+                torn = os.pread(fd, size - keep, keep)
+                if _is_entry(torn):
+                    # A whole entry that lost only its newline (journal() loads it): complete it.
+                    os.write(fd, b"\n")
+                else:
+                    # A torn last line from a killed writer: set it aside, never glue onto it.
                     with open(self.root / TORN, "ab") as fh:
                         fh.write(torn + b"\n")
                     os.ftruncate(fd, keep)

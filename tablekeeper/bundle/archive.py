@@ -37,6 +37,8 @@ COMPRESS_LEVEL = 6
 #: Largest decompressed archive opened, bytes (a gzip bomb stops here).
 MAX_TAR_BYTES = 8 << 30
 _CHUNK = 1 << 20
+#: More members than this is no bundle (it has nine); the headers are not even all read.
+MAX_MEMBERS = 64
 
 
 def _infos(folder: Path, top: str, mtime: int) -> Iterator[tuple[tarfile.TarInfo, Path | None]]:
@@ -170,8 +172,13 @@ def _open_into(archive: Path, tmp: Path) -> Opened:
     except tarfile.TarError as exc:
         return Opened(None, None, None, [*problems, f"{name}: is not a tar archive ({exc})"])
     with tar:
+        members = []
         try:
-            members = tar.getmembers()
+            for m in tar:  # read headers one by one: a hostile archive of a million members stops early
+                members.append(m)
+                if len(members) > MAX_MEMBERS:
+                    return Opened(None, None, None, [*problems, f"{name}: holds more members than a bundle "
+                                                     "has; refused, nothing was extracted"])
         except tarfile.TarError as exc:
             return Opened(None, None, None, [*problems, f"{name}: the tar data is damaged ({exc})"])
         if not members:

@@ -26,12 +26,25 @@ from .reactions import (
     resolve_species,
     verdict_of,
 )
+from .report import (
+    TABLE_HEADS,
+    UNCERTAINTY_NOTE,
+    VERDICT_TEXT,
+    fit_summary,
+    format_reaction,
+    format_table_lines,
+    reaction_rows,
+    table_cells,
+)
 
 __all__ = [
     "CAUTION",
     "REF_SLACK_K",
     "TABLE_COLUMNS",
+    "TABLE_HEADS",
     "T_REF",
+    "UNCERTAINTY_NOTE",
+    "VERDICT_TEXT",
     "CpModel",
     "ExtrapolationError",
     "FitResult",
@@ -44,12 +57,17 @@ __all__ = [
     "default_grid",
     "derived_table",
     "fit",
+    "fit_summary",
+    "format_reaction",
+    "format_table_lines",
     "format_uncertain",
     "model_from_json",
     "parse_equation",
     "property_value",
     "reaction_properties",
+    "reaction_rows",
     "record_model",
     "resolve_species",
+    "table_cells",
     "verdict_of",
 ]

@@ -209,3 +209,14 @@ def test_read_refuses_a_damaged_bundle(bundle):
     _flip(bundle.folder / "values.csv", 100)
     with pytest.raises(DamagedFileError, match=r"values\.csv"):
         read(bundle.folder)
+
+
+def test_an_archive_with_very_many_members_is_refused_early(bundle, tmp_path):
+    path = tmp_path / "many.tar.gz"
+    with tarfile.open(bundle.archive, "r:gz") as src, tarfile.open(path, "w:gz") as dst:
+        for m in src.getmembers():
+            dst.addfile(m, src.extractfile(m) if m.isfile() else None)
+        for i in range(100):
+            dst.addfile(_member(f"keyvalues-1.0.0/extra-{i}.csv", size=1), io.BytesIO(b"x"))
+    report = verify(path)
+    assert any("more members than a bundle has" in d for d in report.damages)

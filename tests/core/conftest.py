@@ -65,9 +65,21 @@ def _valid_documents() -> dict[str, dict]:
                     "target": "species/water-l", "revision": 2,
                     "changes": [{"field": "properties.dfH298.value", "old": -285.8, "new": -285.83}],
                     "reason": "typo"},
-        "releases": {"version": "1.2.3", "previous": "1.2.2", "created": "2024-05-01T12:00:00Z", "user": "cid",
-                     "digest": "sha256:" + "0" * 64, "note": "Spring release.",
+        "releases": {"version": "1.2.3", "previous": "1.2.2", "created": "2024-05-01T12:00:00Z",
+                     "user": "cid", "digest": "sha256:" + "0" * 64, "note": "Spring release.",
                      "summary": {"error": 0, "warning": 1, "info": 0}},
+        "datapackage": {
+            "profile": "data-package", "name": "coreset", "title": "Core test set", "version": "1.0.0",
+            "created": "2024-01-01T00:00:00Z",
+            "resources": [{"name": "changes", "path": "CHANGES.md", "format": "md",
+                           "mediatype": "text/markdown", "encoding": "utf-8", "hash": "sha256:" + "0" * 64,
+                           "bytes": 0}],
+            "tablekeeper:format": 1, "tablekeeper:previous_version": None,
+            "tablekeeper:standard_state": {"pressure_bar": 1, "temperature_K": 298.15},
+            "tablekeeper:check_summary": {"error": 0, "warning": 0, "info": 0},
+            "tablekeeper:accepted_warnings": [],
+            "tablekeeper:cautions": ["A passing check proves consistency, not correctness."],
+            "tablekeeper:descriptor_hash": "sha256:" + "0" * 64},
     }
 
 

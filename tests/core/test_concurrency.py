@@ -94,7 +94,8 @@ print("finished", flush=True)
 """
 
 
-def test_a_save_killed_before_its_rename_leaves_the_old_record_whole(dataset: Dataset, species_record) -> None:
+def test_a_save_killed_before_its_rename_leaves_the_old_record_whole(dataset: Dataset,
+                                                                    species_record) -> None:
     dataset.save("species", species_record(), expected_revision=None)
     path = dataset.root / "species" / "water-l.json"
     before = path.read_bytes()

@@ -1,4 +1,5 @@
-"""The dataset folder: layout, canonical bytes, revisions, conflicts, journal, ids, roles, damage, recovery."""
+"""The dataset folder: layout, canonical bytes, revisions, conflicts, journal, ids, roles, damage and
+recovery after a failed or killed save."""
 
 from __future__ import annotations
 
@@ -101,8 +102,8 @@ def records(draw: st.DrawFn) -> dict:
     rec = {"id": f"sp-{next(_counter)}", "revision": 1, "formula": "H2O", "phase": "l", "charge": 0,
            "status": "draft", "name": draw(free_text), "notes": draw(free_text), "properties": props}
     if draw(st.booleans()):
-        rec["cp_model"] = {"kind": "tabulated",
-                           "points": draw(st.lists(st.tuples(finite, finite).map(list), min_size=2, max_size=4))}
+        points = draw(st.lists(st.tuples(finite, finite).map(list), min_size=2, max_size=4))
+        rec["cp_model"] = {"kind": "tabulated", "points": points}
     return rec
 
 

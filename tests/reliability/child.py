@@ -54,9 +54,16 @@ def big_record(ident: str, revision: int, points: int) -> dict:
     """A species record of about 50 bytes per tabulated point whose content is a function of its
     revision, so that the parent can rebuild every version the child may have written."""
     pts = [[100.0 + i * 0.25, 20.0 + ((revision * 7919 + i * 31) % 100000) / 1000.0] for i in range(points)]
-    return {"id": ident, "formula": "C8H18", "phase": "l", "charge": 0, "status": "draft",
-            "name": f"large record r{revision}", "properties": {},
-            "cp_model": {"kind": "tabulated", "points": pts}}
+    return {
+        "id": ident,
+        "formula": "C8H18",
+        "phase": "l",
+        "charge": 0,
+        "status": "draft",
+        "name": f"large record r{revision}",
+        "properties": {},
+        "cp_model": {"kind": "tabulated", "points": pts},
+    }
 
 
 def bigsave(root: str, ident: str, points: int) -> None:
@@ -78,8 +85,14 @@ def saver(root: str, ident: str, note: str) -> None:
     ds = Dataset(root)
     rec = ds.load("species", ident)
     ds.save("species", dict(rec, notes=note), expected_revision=rec["revision"])
-    new = {"id": f"{ident}-{os.getuid()}", "formula": "He", "phase": "g", "charge": 0, "status": "draft",
-           "properties": {}}
+    new = {
+        "id": f"{ident}-{os.getuid()}",
+        "formula": "He",
+        "phase": "g",
+        "charge": 0,
+        "status": "draft",
+        "properties": {},
+    }
     ds.save("species", new, expected_revision=None)
     _say({"saved": [ident, new["id"]]})
 

@@ -11,8 +11,13 @@ from pathlib import Path
 
 from tablekeeper.store import Dataset
 
-SOURCE = {"id": "codata-1989", "title": "CODATA Key Values for Thermodynamics", "year": 1989,
-          "authors": ["J. D. Cox", "D. D. Wagman", "V. A. Medvedev"], "kind": "compilation"}
+SOURCE = {
+    "id": "codata-1989",
+    "title": "CODATA Key Values for Thermodynamics",
+    "year": 1989,
+    "authors": ["J. D. Cox", "D. D. Wagman", "V. A. Medvedev"],
+    "kind": "compilation",
+}
 
 # id: (formula, phase, form, reference, dfH (u), S (u), Cp)
 ROWS = {
@@ -25,12 +30,24 @@ ROWS = {
     "co2-g": ("CO2", "g", None, False, (-393.51, 0.13), (213.785, 0.010), 37.12),
 }
 ELEMENT_S = {"O": 205.152 / 2, "H": 130.680 / 2, "N": 191.609 / 2, "C": 5.74}
-ATOMS = {"O2": {"O": 2}, "H2": {"H": 2}, "N2": {"N": 2}, "C": {"C": 1}, "H2O": {"H": 2, "O": 1},
-         "CO2": {"C": 1, "O": 2}}
+ATOMS = {
+    "O2": {"O": 2},
+    "H2": {"H": 2},
+    "N2": {"N": 2},
+    "C": {"C": 1},
+    "H2O": {"H": 2, "O": 1},
+    "CO2": {"C": 1, "O": 2},
+}
 
 
 def _pv(value: float, u: float) -> dict:
-    return {"value": value, "unit": "kJ/mol", "uncertainty": u, "source": "codata-1989", "method": "evaluated"}
+    return {
+        "value": value,
+        "unit": "kJ/mol",
+        "uncertainty": u,
+        "source": "codata-1989",
+        "method": "evaluated",
+    }
 
 
 def records() -> dict[str, dict]:
@@ -44,8 +61,15 @@ def records() -> dict[str, dict]:
             "S298": dict(_pv(s, us), unit="J/(mol*K)"),
             "Cp298": dict(_pv(cp, 0.01), unit="J/(mol*K)"),
         }
-        rec = {"id": ident, "name": ident, "formula": formula, "phase": phase, "charge": 0,
-               "status": "reviewed", "properties": props}
+        rec = {
+            "id": ident,
+            "name": ident,
+            "formula": formula,
+            "phase": phase,
+            "charge": 0,
+            "status": "reviewed",
+            "properties": props,
+        }
         if form:
             rec["form"] = form
         if ref:

@@ -31,8 +31,13 @@ def child() -> Callable[..., subprocess.Popen]:
 
     def start(mode: str, *args: object, safety: str = "", **kw: object) -> subprocess.Popen:
         env = dict(os.environ, TK_SAFETY=safety, PYTHONUNBUFFERED="1")
-        return subprocess.Popen([sys.executable, str(CHILD), mode, *map(str, args)], env=env,
-                                stdout=subprocess.PIPE, stderr=subprocess.PIPE, **kw)
+        return subprocess.Popen(
+            [sys.executable, str(CHILD), mode, *map(str, args)],
+            env=env,
+            stdout=subprocess.PIPE,
+            stderr=subprocess.PIPE,
+            **kw,
+        )
 
     return start
 

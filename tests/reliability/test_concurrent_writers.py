@@ -59,16 +59,22 @@ def test_concurrent_writers_lose_no_accepted_save(tmp_path, child, make_species,
         others = [o for r in results for o in r["others"]]
         accepted_total += accepted
         counter, revision, journal_updates = _state(root)
-        print(f"round {rnd}: {accepted} accepted + {conflicts} conflicts of {WRITERS * ATTEMPTS} attempts; "
-              f"counter {counter}, revision {revision}, journal {journal_updates} updates "
-              f"(cumulative accepted {accepted_total})")
+        print(
+            f"round {rnd}: {accepted} accepted + {conflicts} conflicts of {WRITERS * ATTEMPTS} attempts; "
+            f"counter {counter}, revision {revision}, journal {journal_updates} updates "
+            f"(cumulative accepted {accepted_total})"
+        )
         assert not others, f"refusals that were not ConflictError: {others[:5]}"
         assert accepted + conflicts == WRITERS * ATTEMPTS, (
-            f"{accepted} accepted + {conflicts} conflicts != {WRITERS * ATTEMPTS} attempts")
-        assert counter == accepted_total, f"counter {counter} != {accepted_total} accepted saves: updates lost"
+            f"{accepted} accepted + {conflicts} conflicts != {WRITERS * ATTEMPTS} attempts"
+        )
+        assert counter == accepted_total, (
+            f"counter {counter} != {accepted_total} accepted saves: updates lost"
+        )
         assert revision == accepted_total + 1, f"revision {revision} != {accepted_total} saves + creation"
         assert journal_updates == accepted_total, (
-            f"journal has {journal_updates} update lines for {accepted_total} accepted saves")
+            f"journal has {journal_updates} update lines for {accepted_total} accepted saves"
+        )
         assert conflicts > 0, "no conflict at all: the writers did not really race"
     assert leftovers(root) == [], f"temporary files left: {leftovers(root)}"
     print(f"{accepted_total} of {accepted_total} accepted saves kept over 2 rounds")
@@ -82,8 +88,11 @@ def test_control_without_lock_loses_updates(tmp_path, child, make_species):
     accepted = sum(r["accepted"] for r in results)
     counter, revision, journal_updates = _state(root)
     lost = accepted - counter
-    print(f"control without lock: {accepted} saves reported accepted, counter {counter} "
-          f"({lost} lost), revision {revision}, journal {journal_updates} update lines")
+    print(
+        f"control without lock: {accepted} saves reported accepted, counter {counter} "
+        f"({lost} lost), revision {revision}, journal {journal_updates} update lines"
+    )
     assert lost > 0 or journal_updates != counter, (
         f"without the lock no update was lost ({accepted} accepted, counter {counter}): the race did "
-        "not happen, so the protected run proves nothing")
+        "not happen, so the protected run proves nothing"
+    )

@@ -37,8 +37,11 @@ def _dup_refused(pairs):
 def _valid(kind: str, ident: str, raw: bytes) -> bool:
     """The independent verdict: does this file still hold a valid record?"""
     try:
-        obj = json.loads(raw.decode("utf-8"), object_pairs_hook=_dup_refused,
-                         parse_constant=lambda c: (_ for _ in ()).throw(ValueError(c)))
+        obj = json.loads(
+            raw.decode("utf-8"),
+            object_pairs_hook=_dup_refused,
+            parse_constant=lambda c: (_ for _ in ()).throw(ValueError(c)),
+        )
     except (ValueError, UnicodeDecodeError, RecursionError):
         return False
     if raw.startswith(b"\xef\xbb\xbf") or not isinstance(obj, dict) or obj.get("id") != ident:
@@ -97,12 +100,15 @@ def test_check_names_every_damaged_record(clean_dataset, capsys):
         damaged = [str(d) for d in report.damaged]
         loaded = report.records.get(ident)
         assert any(rel in d for d in damaged) or validation.errors(kind, loaded), (
-            f"{how} at {where} of {rel}: loaded silently as a valid record")
+            f"{how} at {where} of {rel}: loaded silently as a valid record"
+        )
         named += 1
     total = FLIPS + TRUNCATIONS
-    print(f"damage: {named} of {total - valid_after} damaged files named by check (exit 1); "
-          f"{valid_after} damages left a different valid record ({caught_anyway} of them still failed a "
-          f"consistency check)")
+    print(
+        f"damage: {named} of {total - valid_after} damaged files named by check (exit 1); "
+        f"{valid_after} damages left a different valid record ({caught_anyway} of them still failed a "
+        f"consistency check)"
+    )
     assert named == total - valid_after
     assert named >= total // 2, "most damages should break the record; the sampling is not testing"
 
@@ -113,8 +119,12 @@ def test_check_command_names_damaged_file_as_a_process(clean_dataset):
     root = clean_dataset.root
     path = root / "species" / "h2o-l.json"
     path.write_bytes(path.read_bytes()[:57])
-    r = subprocess.run([sys.executable, "-m", "tablekeeper.cli", "check", str(root)], capture_output=True,
-                       text=True, timeout=120)
+    r = subprocess.run(
+        [sys.executable, "-m", "tablekeeper.cli", "check", str(root)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     assert r.returncode == 1, (r.returncode, r.stdout, r.stderr)
     assert "species/h2o-l.json" in r.stdout and "not valid JSON" in r.stdout, r.stdout
     assert "Traceback" not in r.stderr
@@ -128,7 +138,7 @@ def test_verify_names_every_bit_flip_in_a_bundle(clean_dataset, tmp_path, capsys
     from tablekeeper import bundle
 
     done = bundle.release(clean_dataset, "1.0.0", out=tmp_path / "out")
-    targets = sorted(p for p in done.folder.iterdir() if p.is_file()) + [done.archive]
+    targets = [*sorted(p for p in done.folder.iterdir() if p.is_file()), done.archive]
     capsys.readouterr()
     assert cli.main(["verify", str(done.folder)]) == 0 and cli.main(["verify", str(done.archive)]) == 0
     rng = random.Random(SEED)

@@ -51,8 +51,11 @@ class Injector:
 
 
 def _snapshot(root: Path) -> dict[str, bytes]:
-    return {str(p.relative_to(root)): p.read_bytes() for p in sorted(root.rglob("*"))
-            if p.is_file() and p.name != store.LOCK_NAME}
+    return {
+        str(p.relative_to(root)): p.read_bytes()
+        for p in sorted(root.rglob("*"))
+        if p.is_file() and p.name != store.LOCK_NAME
+    }
 
 
 def _pristine(tmp_path: Path, make_species) -> Path:
@@ -68,8 +71,11 @@ def _save_one(ds: Dataset, make_species) -> None:
 
 
 def _save_many(ds: Dataset, make_species) -> None:
-    items = [(dict(ds.load("species", "water"), notes="after"), 1), (dict(ds.load("species", "ice"), notes="x"), 1),
-             (make_species("steam", phase="g"), None)]
+    items = [
+        (dict(ds.load("species", "water"), notes="after"), 1),
+        (dict(ds.load("species", "ice"), notes="x"), 1),
+        (make_species("steam", phase="g"), None),
+    ]
     ds.save_many("species", items, reason="import")
 
 
@@ -82,8 +88,9 @@ ACTIONS = {"save": _save_one, "save_many": _save_many, "delete": _delete}
 
 @pytest.mark.timeout(120)
 @pytest.mark.parametrize("action", sorted(ACTIONS))
-def test_every_failing_call_of_a_save_leaves_the_dataset_as_it_was(tmp_path, monkeypatch, make_species,
-                                                                      action):
+def test_every_failing_call_of_a_save_leaves_the_dataset_as_it_was(
+    tmp_path, monkeypatch, make_species, action
+):
     pristine = _pristine(tmp_path, make_species)
     inj = Injector(monkeypatch)
     run = ACTIONS[action]
@@ -131,8 +138,12 @@ def test_every_failing_call_of_a_save_leaves_the_dataset_as_it_was(tmp_path, mon
                     problems.append(f"{where}: partial journal line")
                 # The dataset still works after the failure.
                 Dataset(root).load("species", "water")
-    print(f"{action}: {counts} calls; {failures} of {cases} injected failures reported to the caller "
-          f"and left every file byte-identical" if not problems else f"{action}: {len(problems)} problems")
+    print(
+        f"{action}: {counts} calls; {failures} of {cases} injected failures reported to the caller "
+        f"and left every file byte-identical"
+        if not problems
+        else f"{action}: {len(problems)} problems"
+    )
     assert not problems, "\n".join(problems)
 
 
@@ -140,8 +151,9 @@ def _mount_tmpfs(where: Path, size: str) -> bool:
     where.mkdir()
     if os.geteuid() != 0:
         return False
-    r = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(where)],
-                       capture_output=True, timeout=10)
+    r = subprocess.run(
+        ["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(where)], capture_output=True, timeout=10
+    )
     return r.returncode == 0
 
 
@@ -182,12 +194,14 @@ def test_full_tmpfs_refuses_saves_and_keeps_previous_files(tmp_path, make_specie
         pytest.skip("no tmpfs can be mounted here (needs root); the injection test above covers ENOSPC")
     try:
         refused, damaged, kept = _fill_and_save(mnt, make_species)
-        print(f"full tmpfs: {refused} saves refused with ENOSPC, {damaged} of them changed a file; "
-              f"{kept} saves completed")
+        print(
+            f"full tmpfs: {refused} saves refused with ENOSPC, {damaged} of them changed a file; "
+            f"{kept} saves completed"
+        )
         assert refused > 0 and kept > 0, (refused, kept)
         assert damaged == 0, f"{damaged} of {refused} refused saves changed files"
         monkeypatch.setattr(store.SAFETY, "atomic", False)
-        c_refused, c_damaged, c_kept = _fill_and_save(mnt, make_species)
+        c_refused, c_damaged, _ = _fill_and_save(mnt, make_species)
         print(f"control without atomic rename: {c_damaged} of {c_refused} refused saves changed the record")
         assert c_damaged > 0, "writing in place on a full disk damaged nothing: the test cannot fail"
     finally:

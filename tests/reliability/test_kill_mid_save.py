@@ -24,7 +24,7 @@ from tablekeeper.errors import DamagedFileError
 from tablekeeper.store import Dataset
 
 sys.path.insert(0, str(Path(__file__).parent))
-from child import big_record  # noqa: E402  (the child's content function, shared on purpose)
+from child import big_record
 
 KILLS = 50
 POINTS = 10000  # about 495 kB in canonical form
@@ -36,8 +36,11 @@ JOURNAL_CAP = 2 << 20  # the journal is rotated past this size to keep the test 
 def _setup(tmp_path: Path) -> Path:
     ds = Dataset.init(tmp_path / "ds", "killed")
     ds.save("species", big_record(IDENT, 1, POINTS), expected_revision=None)
-    ds.save("species", {"id": "probe", "formula": "He", "phase": "g", "charge": 0, "status": "draft",
-                        "properties": {}}, expected_revision=None)
+    ds.save(
+        "species",
+        {"id": "probe", "formula": "He", "phase": "g", "charge": 0, "status": "draft", "properties": {}},
+        expected_revision=None,
+    )
     return ds.root
 
 
@@ -94,7 +97,6 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers):
         left = leftovers(root)
         temp_seen += bool(left)
         raw_journal = (root / store.JOURNAL).read_bytes()
-        cut = False
         if i % 5 == 4 and raw_journal.endswith(b"\n") and len(raw_journal) > 2:
             # A kill inside the append's write is rare at random; every fifth round cuts the last line
             # in half as such a kill would, so that detection and setting aside are always exercised.
@@ -102,16 +104,16 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers):
             cut_entry = json.loads(raw_journal[start:])
             if cut_entry.get("target") == f"species/{IDENT}":
                 cut_revs.add(cut_entry["revision"])
-            raw_journal = raw_journal[:start + (len(raw_journal) - start) // 2]
+            raw_journal = raw_journal[: start + (len(raw_journal) - start) // 2]
             (root / store.JOURNAL).write_bytes(raw_journal)
             simulated += 1
-            cut = True
         ds = Dataset(root)  # the next open: recover() removes temporary files
         assert leftovers(root) == [], f"kill {i}: temporary files survive the next open: {leftovers(root)}"
         rec = ds.load("species", IDENT)  # raises DamagedFileError on a torn record
         cands = _candidates(in_flight, last_done)
         assert rec["revision"] in cands, (
-            f"kill {i}: record at revision {rec['revision']}, expected one of {sorted(cands)}")
+            f"kill {i}: record at revision {rec['revision']}, expected one of {sorted(cands)}"
+        )
         assert rec == cands[rec["revision"]], f"kill {i}: revision {rec['revision']} is not whole"
         whole += 1
 
@@ -121,12 +123,14 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers):
         if last is not None and last != rec["revision"]:
             # Killed between the rename and the journal append: the record is saved, its journal line
             # never written. The journal may fall behind (by every such kill), never run ahead.
-            assert last < rec["revision"], f"kill {i}: journal at revision {last}, record at {rec['revision']}"
+            assert last < rec["revision"], (
+                f"kill {i}: journal at revision {last}, record at {rec['revision']}"
+            )
         journaled |= {e["revision"] for e in mine}
         journal_behind = len(set(range(2, rec["revision"] + 1)) - journaled - cut_revs)
         if raw_journal and not raw_journal.endswith(b"\n"):
             torn_lines += 1
-            torn = raw_journal[raw_journal.rfind(b"\n") + 1:]
+            torn = raw_journal[raw_journal.rfind(b"\n") + 1 :]
             assert any("torn last line" in p for p in problems), f"kill {i}: torn line not reported"
             before = (root / store.TORN).read_bytes() if (root / store.TORN).exists() else b""
             probe = ds.load("species", "probe")
@@ -137,10 +141,12 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers):
             assert problems == [], f"kill {i}: {problems}"
         if (root / store.JOURNAL).stat().st_size > JOURNAL_CAP:
             (root / store.JOURNAL).write_bytes(b"")
-    print(f"{whole} of {KILLS} kills left the record whole (old or new); {in_flight_kills} landed during a "
-          f"save; {temp_seen} left a temporary file, all removed at the next open; {torn_lines} torn last journal "
-          f"lines ({simulated} of them cut by the test) reported and set aside; {journal_behind} saves reached the disk without their journal line (killed between rename "
-          f"and append)")
+    print(
+        f"{whole} of {KILLS} kills left the record whole (old or new); {in_flight_kills} landed during a "
+        f"save; {temp_seen} left a temporary file, all removed at the next open; {torn_lines} torn last "
+        f"journal lines ({simulated} of them cut by the test) reported and set aside; {journal_behind} "
+        "saves reached the disk without their journal line (killed between rename and append)"
+    )
     assert whole == KILLS
     assert torn_lines >= simulated
     assert in_flight_kills > KILLS // 2, f"only {in_flight_kills} kills hit a save: the test is not testing"
@@ -192,16 +198,50 @@ def test_control_without_atomic_rename_tears_records(tmp_path, child):
         last_done = done[-1] if done else Dataset(root).load("species", IDENT)["revision"]
         if _torn_record(root, begun[-1] if begun else None, last_done):
             targeted += 1
-    print(f"control without atomic rename: {torn} of {KILLS} random kills tore the record; "
-          f"{targeted} of {tries} targeted kills tore it")
+    print(
+        f"control without atomic rename: {torn} of {KILLS} random kills tore the record; "
+        f"{targeted} of {tries} targeted kills tore it"
+    )
     assert torn + targeted > 0, "no kill tore a record written in place: the kill test cannot fail"
 
 
 def _restore(root: Path) -> None:
     """Put a whole record back after a torn one, so the control can go on."""
-    entries = [json.loads(x) for x in (root / store.JOURNAL).read_bytes().splitlines()[-50:]
-               if x.startswith(b"{") and x.endswith(b"}")]
+    entries = [
+        json.loads(x)
+        for x in (root / store.JOURNAL).read_bytes().splitlines()[-50:]
+        if x.startswith(b"{") and x.endswith(b"}")
+    ]
     revs = [e["revision"] for e in entries if e.get("target") == f"species/{IDENT}"]
     rev = revs[-1] if revs else 1
     (root / "species" / f"{IDENT}.json").write_bytes(
-        store.jsonio.dumps(dict(big_record(IDENT, rev, POINTS), revision=rev)))
+        store.jsonio.dumps(dict(big_record(IDENT, rev, POINTS), revision=rev))
+    )
+
+
+@pytest.mark.parametrize("size", [200, 3 << 20])
+def test_a_torn_last_line_is_set_aside_and_a_whole_one_kept(tmp_path, size):
+    """The two cases a kill inside the append leaves: a cut line (set aside in journal.torn, never glued
+    to the next entry, however long) and a whole entry that lost only its newline (kept: journal()
+    already reads it as an entry, so setting it aside would silently drop an accepted change)."""
+    ds = Dataset.init(tmp_path / "ds", "torn")
+    journal = ds.root / store.JOURNAL
+    cut = b'{"action":"update","changes":[{"field":"notes","new":"' + b"x" * size
+    with open(journal, "ab") as fh:
+        fh.write(cut)
+    entries, problems = ds.journal()
+    assert any("torn last line" in p for p in problems)
+    ds.append_journal("update", "dataset", reason="after a cut line")
+    assert (ds.root / store.TORN).read_bytes() == cut + b"\n"
+    entries, problems = ds.journal()
+    assert problems == [] and [e.get("reason") for e in entries][-1] == "after a cut line"
+    whole = (
+        b'{"action":"update","reason":"whole","target":"dataset","time":"2024-01-01T00:00:00Z","user":"u"}'
+    )
+    with open(journal, "ab") as fh:
+        fh.write(whole)
+    assert ds.journal()[0][-1]["reason"] == "whole"
+    ds.append_journal("update", "dataset", reason="next")
+    entries, problems = ds.journal()
+    assert problems == [] and [e.get("reason") for e in entries][-2:] == ["whole", "next"]
+    assert (ds.root / store.TORN).read_bytes() == cut + b"\n", "the whole entry was set aside"

@@ -41,8 +41,15 @@ def _run(args: list[str], *, uid: int | None = None, cwd: Path | None = None) ->
     env = dict(os.environ, TABLEKEEPER_USER=f"u{uid or 0}", HOME="/tmp")
     if uid is not None:
         env.update(TK_AS_UID=str(uid), TK_AS_GID=str(GID))
-    return subprocess.run([sys.executable, *args], preexec_fn=lambda: os.umask(0o022), capture_output=True,
-                          text=True, timeout=120, env=env, cwd=cwd)
+    return subprocess.run(
+        [sys.executable, *args],
+        preexec_fn=lambda: os.umask(0o022),
+        capture_output=True,
+        text=True,
+        timeout=120,
+        env=env,
+        cwd=cwd,
+    )
 
 
 @pytest.fixture
@@ -75,10 +82,15 @@ def test_saves_imports_and_flags_keep_the_dataset_group_writable(shared_root):
         assert r.returncode == 0, (args, r.stdout, r.stderr)
     modes = _modes(root)
     files = {k: m for k, m in modes.items() if (root / k).is_file()}
-    wrong = {k: oct(m) for k, m in files.items()
-             if k != "species/private.json" and k != ".tablekeeper.lock" and m & 0o060 != 0o060}
-    print(f"shared folder: {len(files) - len(wrong)} of {len(files)} files group-readable and -writable "
-          f"after save, import and flag under umask 022; private.json kept {oct(files['species/private.json'])}")
+    wrong = {
+        k: oct(m)
+        for k, m in files.items()
+        if k != "species/private.json" and k != ".tablekeeper.lock" and m & 0o060 != 0o060
+    }
+    print(
+        f"shared folder: {len(files) - len(wrong)} of {len(files)} files group-readable and -writable "
+        f"after save, import and flag under umask 022; private.json kept {oct(files['species/private.json'])}"
+    )
     assert not wrong, f"files lost group read/write: {wrong}"
     assert files["species/private.json"] == 0o660, "the mode of an existing file was not kept by import"
     new = [k for k in files if k.startswith("flags/") or k in ("species/steam.json", "species/water-0.json")]

@@ -12,6 +12,7 @@ from __future__ import annotations
 import shutil
 import tempfile
 from pathlib import Path
+from typing import ClassVar
 
 import pytest
 from hypothesis import HealthCheck, settings
@@ -26,7 +27,8 @@ from tablekeeper.store import Dataset, flatten
 IDS = ("water", "steam", "ice", "co2", "n2", "argon")
 FORMULAS = ("H2O", "CO2", "N2", "Ar", "CH4")
 text = st.text(st.characters(codec="utf-8", exclude_categories=("Cs",)), min_size=1, max_size=30).filter(
-    lambda s: s.strip() and s[0] not in "=+@\t\r" and s == s.strip())
+    lambda s: s.strip() and s[0] not in "=+@\t\r" and s == s.strip()
+)
 value = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False, allow_infinity=False)
 
 
@@ -57,6 +59,17 @@ def _unset(rec: dict, dotted: str) -> None:
 
 
 _MISSING = object()
+_TORN = b'{"action":"update","target":"species/water"'
+
+
+def _parses(raw: bytes) -> bool:
+    import json
+
+    try:
+        json.loads(raw)
+        return True
+    except ValueError:
+        return False
 
 
 def replay(entries: list[dict]) -> dict[str, dict]:
@@ -64,14 +77,15 @@ def replay(entries: list[dict]) -> dict[str, dict]:
     state: dict[str, dict] = {}
     for e in entries:
         target = e.get("target", "")
-        if not target.startswith(("species/", "flags/")):
+        if not target.startswith(("species/", "flags/", "releases/")):
             continue
         rec = state.setdefault(target, {})
         for ch in e.get("changes", []):
             have = _get(rec, ch["field"], _MISSING)
             want = ch.get("old", _MISSING)
             assert have == want or (have is _MISSING and want is _MISSING), (
-                f"journal {target} {ch['field']}: old {want!r} but the replay holds {have!r}")
+                f"journal {target} {ch['field']}: old {want!r} but the replay holds {have!r}"
+            )
             if "new" in ch:
                 _set(rec, ch["field"], ch["new"])
             else:
@@ -83,24 +97,42 @@ def replay(entries: list[dict]) -> dict[str, dict]:
 
 
 class StoreMachine(RuleBasedStateMachine):
+    counts: ClassVar[dict[str, int]] = {"runs": 0, "steps": 0, "released": 0, "refused": 0}
+
     def __init__(self) -> None:
         super().__init__()
         self.base = Path(tempfile.mkdtemp(prefix="tk-state-"))
         self.ds = Dataset.init(self.base / "ds", "model")
         self.species: dict[str, dict] = {}  # id -> record with revision
         self.flags: dict[str, dict] = {}
+        self.releases: dict[str, dict] = {}
+        self.release_tried = False
         self.torn_pending = False
         self.steps = 0
 
     def teardown(self) -> None:
         shutil.rmtree(self.base, ignore_errors=True)
+        c = StoreMachine.counts
+        c["runs"] += 1
+        c["steps"] += self.steps
+        print(
+            f"store model: {c['runs']} runs, {c['steps']} checked steps, {c['released']} releases made, "
+            f"{c['refused']} refused by the gate"
+        )
 
     # -- rules ---------------------------------------------------------------------------------------
 
     @rule(ident=st.sampled_from(IDS), formula=st.sampled_from(FORMULAS), name=text, h=value)
     def create(self, ident: str, formula: str, name: str, h: float) -> None:
-        rec = {"id": ident, "formula": formula, "phase": "g", "charge": 0, "status": "draft", "name": name,
-               "properties": {"dfH298": {"value": h, "unit": "kJ/mol"}}}
+        rec = {
+            "id": ident,
+            "formula": formula,
+            "phase": "g",
+            "charge": 0,
+            "status": "draft",
+            "name": name,
+            "properties": {"dfH298": {"value": h, "unit": "kJ/mol"}},
+        }
         if ident in self.species:
             with pytest.raises(ConflictError):
                 self.ds.save("species", rec, expected_revision=None)
@@ -147,8 +179,9 @@ class StoreMachine(RuleBasedStateMachine):
     @rule(data=st.data(), note=text, blocking=st.booleans())
     def raise_flag(self, data, note: str, blocking: bool) -> None:
         ident = data.draw(st.sampled_from(sorted(self.species)))
-        rec = flagmod.raise_flag(self.ds, ident, data.draw(st.sampled_from(["dfH298", "S298", "name"])),
-                                 note, blocking=blocking)
+        rec = flagmod.raise_flag(
+            self.ds, ident, data.draw(st.sampled_from(["dfH298", "S298", "name"])), note, blocking=blocking
+        )
         self.flags[rec["id"]] = rec
         self.torn_pending = False
 
@@ -159,6 +192,24 @@ class StoreMachine(RuleBasedStateMachine):
         self.flags[fid] = flagmod.resolve(self.ds, fid, resolution)
         self.torn_pending = False
 
+    @precondition(lambda self: not self.release_tried)  # once per run: a release runs every check
+    @rule()
+    def release(self) -> None:
+        from tablekeeper import bundle
+
+        self.release_tried = True
+        version = f"1.0.{len(self.releases)}"
+        try:
+            done = bundle.release(self.ds, version, out=self.base / "out", allow_warnings=True)
+        except bundle.GateRefused:
+            StoreMachine.counts["refused"] += 1
+            assert not (self.base / "out").exists() or not any((self.base / "out").iterdir())
+            return
+        self.releases[version] = done.record
+        StoreMachine.counts["released"] += 1
+        assert bundle.verify(done.archive).ok
+        self.torn_pending = False
+
     @rule()
     def reopen(self) -> None:
         self.ds = Dataset(self.ds.root)
@@ -167,10 +218,12 @@ class StoreMachine(RuleBasedStateMachine):
     def crash_leaves_temp_file(self, kind: str) -> None:
         (self.ds.root / kind / f".water.json{store._TMP_MARK}99999-deadbeef").write_bytes(b'{"id": "wat')
 
-    @rule(garbage=st.binary(min_size=1, max_size=40).filter(lambda b: b"\n" not in b))
+    @rule(
+        garbage=st.binary(min_size=1, max_size=40).filter(lambda b: b"\n" not in b and not _parses(_TORN + b))
+    )
     def crash_tears_journal(self, garbage: bytes) -> None:
         with open(self.ds.root / store.JOURNAL, "ab") as fh:
-            fh.write(b'{"action":"update","target":"species/water"' + garbage)
+            fh.write(_TORN + garbage)
         self.torn_pending = True
 
     @rule()
@@ -187,6 +240,7 @@ class StoreMachine(RuleBasedStateMachine):
         assert not sp.damaged and not fl.damaged
         assert sp.records == self.species
         assert fl.records == self.flags
+        assert self.ds.load_all("releases").records == self.releases
 
     @invariant()
     def journal_replay_rebuilds_model(self) -> None:
@@ -195,6 +249,7 @@ class StoreMachine(RuleBasedStateMachine):
         state = replay(entries)
         want = {f"species/{k}": v for k, v in self.species.items()}
         want.update({f"flags/{k}": v for k, v in self.flags.items()})
+        want.update({f"releases/{k}": v for k, v in self.releases.items()})
         assert set(state) == set(want)
         for target, rec in want.items():
             expected = {k: v for k, v in flatten(rec).items() if k != "revision"}
@@ -202,6 +257,8 @@ class StoreMachine(RuleBasedStateMachine):
         self.steps += 1
 
 
-StoreMachine.TestCase.settings = settings(max_examples=25, stateful_step_count=30, deadline=None,
-                                          suppress_health_check=[HealthCheck.too_slow])
-test_store_model = pytest.mark.timeout(180)(StoreMachine.TestCase)
+TestStoreModel = StoreMachine.TestCase
+TestStoreModel.settings = settings(
+    max_examples=25, stateful_step_count=30, deadline=None, suppress_health_check=[HealthCheck.too_slow]
+)
+TestStoreModel = pytest.mark.timeout(240)(TestStoreModel)

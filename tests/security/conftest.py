@@ -8,7 +8,7 @@ from pathlib import Path
 import pytest
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "reliability"))
-import clean_data  # noqa: E402
+import clean_data
 
 
 @pytest.fixture

@@ -45,7 +45,14 @@ def test_import_refuses_formula_cells_in_every_text_column(clean_dataset, tmp_pa
     refused = 0
     for column in ("id", "formula", "phase", "form", "name", "status"):
         for lead in LEADS:
-            row = {"id": "newone", "formula": "He", "phase": "g", "form": "", "name": "helium", "status": "draft"}
+            row = {
+                "id": "newone",
+                "formula": "He",
+                "phase": "g",
+                "form": "",
+                "name": "helium",
+                "status": "draft",
+            }
             row[column] = lead + PAYLOAD
             buf = io.StringIO()
             w = csv.DictWriter(buf, fieldnames=list(row))
@@ -81,7 +88,9 @@ def test_every_string_field_of_the_dataset_schemas_refuses_a_formula_lead():
         for where, node in _string_nodes(validation.schema(kind)):
             fields += 1
             v = Draft202012Validator(node, format_checker=Draft202012Validator.FORMAT_CHECKER)
-            leaks += [f"{kind} {where}: {lead!r}" for lead in LEADS if not list(v.iter_errors(lead + PAYLOAD))]
+            leaks += [
+                f"{kind} {where}: {lead!r}" for lead in LEADS if not list(v.iter_errors(lead + PAYLOAD))
+            ]
     print(f"schemas: {fields} string fields, {len(leaks)} accept a formula-like value")
     assert fields > 20 and not leaks, leaks
 
@@ -92,17 +101,48 @@ def test_a_species_with_formula_text_fails_validation_and_the_flag_api_refuses(c
         for fld in ("name", "notes"):
             assert validation.errors("species", dict(rec, **{fld: lead + PAYLOAD})), (fld, lead)
         with pytest.raises(InputError):
-            flags.raise_flag(clean_dataset, "h2o-l", "dfH298", lead + "x" if lead not in "\t\r" else lead + "=x")
+            flags.raise_flag(
+                clean_dataset, "h2o-l", "dfH298", lead + "x" if lead not in "\t\r" else lead + "=x"
+            )
     assert not list((clean_dataset.root / "flags").glob("*.json"))
 
 
 # -- numbers through a release ---------------------------------------------------------------------
 
-AWKWARD = [-285.83, 0.1 + 0.2, -1 / 3, 5e-324, -5e-324, -123456789.12345679, 1e12, -1e12, -0.0,
-           2.2250738585072014e-308, 1.7976931348623157e-300 * 1e-8, -9.999999999999999e11, 7.0,
-           -0.000123456789012345, 98765.43210987654]
-FORMULAS = ["CH4", "C2H6", "C3H8", "C4H10", "C5H12", "C6H14", "C7H16", "C8H18", "C9H20", "C10H22", "C11H24",
-            "C12H26", "C13H28", "C14H30", "C15H32"]
+AWKWARD = [
+    -285.83,
+    0.1 + 0.2,
+    -1 / 3,
+    5e-324,
+    -5e-324,
+    -123456789.12345679,
+    1e12,
+    -1e12,
+    -0.0,
+    2.2250738585072014e-308,
+    1.7976931348623157e-300 * 1e-8,
+    -9.999999999999999e11,
+    7.0,
+    -0.000123456789012345,
+    98765.43210987654,
+]
+FORMULAS = [
+    "CH4",
+    "C2H6",
+    "C3H8",
+    "C4H10",
+    "C5H12",
+    "C6H14",
+    "C7H16",
+    "C8H18",
+    "C9H20",
+    "C10H22",
+    "C11H24",
+    "C12H26",
+    "C13H28",
+    "C14H30",
+    "C15H32",
+]
 
 
 @pytest.mark.timeout(120)
@@ -110,10 +150,26 @@ def test_numeric_columns_round_trip_exactly(clean_dataset, tmp_path):
     ds = clean_dataset
     for i, (value, formula) in enumerate(zip(AWKWARD, FORMULAS, strict=True)):
         unc = 0.1 + 0.2  # 0.30000000000000004: an uncertainty that needs all 17 digits too
-        ds.save("species", {"id": f"num-{i}", "formula": formula, "phase": "g", "charge": 0, "status": "draft",
-                            "properties": {"dfH298": {"value": value, "unit": "kJ/mol", "uncertainty": unc,
-                                                      "source": "codata-1989", "method": "estimated"}}},
-                expected_revision=None)
+        ds.save(
+            "species",
+            {
+                "id": f"num-{i}",
+                "formula": formula,
+                "phase": "g",
+                "charge": 0,
+                "status": "draft",
+                "properties": {
+                    "dfH298": {
+                        "value": value,
+                        "unit": "kJ/mol",
+                        "uncertainty": unc,
+                        "source": "codata-1989",
+                        "method": "estimated",
+                    }
+                },
+            },
+            expected_revision=None,
+        )
     done = bundle.release(ds, "1.0.0", out=tmp_path / "out", allow_warnings=True)
     tables = bundle.read(done.archive)
     vals = tables["values"]
@@ -127,17 +183,22 @@ def test_numeric_columns_round_trip_exactly(clean_dataset, tmp_path):
             mismatched.append(("u", value, row["uncertainty"]))
     # And in the CSV text itself: the shortest round-trip form.
     with open(done.folder / "values.csv", newline="") as fh:
-        rows = [r for r in csv.DictReader(fh) if r["species"].startswith("num-") and r["property"] == "dfH298"]
+        rows = [
+            r for r in csv.DictReader(fh) if r["species"].startswith("num-") and r["property"] == "dfH298"
+        ]
     for r in rows:
         v = float(r["value"])
         if repr(v) != r["value"] and not (v.is_integer() and r["value"] in (str(int(v)), repr(v))):
             mismatched.append(("text", r["value"], repr(v)))
-    print(f"release: {len(AWKWARD) - len(mismatched)} of {len(AWKWARD)} awkward values round-trip exactly "
-          f"(values.csv text and bundle.read)")
+    print(
+        f"release: {len(AWKWARD) - len(mismatched)} of {len(AWKWARD)} awkward values round-trip exactly "
+        f"(values.csv text and bundle.read)"
+    )
     assert not mismatched, mismatched
 
 
 # -- hostile archives ------------------------------------------------------------------------------
+
 
 def _member(tar: tarfile.TarFile, name: str, data: bytes = b"x", **kw: object) -> None:
     info = tarfile.TarInfo(name)
@@ -156,7 +217,9 @@ def _evil_archives(good: Path, base: Path, canary: Path) -> dict[str, Path]:
         "dot-dot canary": dict(name=rel_canary),
         "absolute": dict(name=str(canary / "abs.txt")),
         "symlink": dict(name=f"{top}/link.csv", type=tarfile.SYMTYPE, linkname=str(canary)),
-        "symlink replacing a table": dict(name=f"{top}/sources.csv", type=tarfile.SYMTYPE, linkname="/etc/passwd"),
+        "symlink replacing a table": dict(
+            name=f"{top}/sources.csv", type=tarfile.SYMTYPE, linkname="/etc/passwd"
+        ),
         "hard link": dict(name=f"{top}/hard.csv", type=tarfile.LNKTYPE, linkname="/etc/passwd"),
         "char device": dict(name=f"{top}/dev", type=tarfile.CHRTYPE, devmajor=1, devminor=3),
         "block device": dict(name=f"{top}/blk", type=tarfile.BLKTYPE, devmajor=7, devminor=0),
@@ -195,8 +258,10 @@ def test_hostile_archives_are_refused_by_verify_and_read(clean_dataset, tmp_path
         refused += 1
     assert not any(canary.iterdir()), f"something was extracted into the canary: {list(canary.iterdir())}"
     assert not (tmp_path / "evil.txt").exists() and not Path("/evil.txt").exists()
-    print(f"archives: {refused} of {refused} hostile archives refused by verify (exit 1) and bundle.read; "
-          "canary empty")
+    print(
+        f"archives: {refused} of {refused} hostile archives refused by verify (exit 1) and bundle.read; "
+        "canary empty"
+    )
 
 
 def test_control_a_plain_extraction_would_write_outside(tmp_path):
@@ -210,7 +275,9 @@ def test_control_a_plain_extraction_would_write_outside(tmp_path):
         _member(tar, "../../canary/pwned")
     with tarfile.open(path) as tar:
         tar.extractall(work, filter="fully_trusted")  # the unsafe behaviour, on purpose
-    print(f"control: an unfiltered extraction wrote {sorted(p.name for p in canary.iterdir())} into the canary")
+    print(
+        f"control: an unfiltered extraction wrote {sorted(p.name for p in canary.iterdir())} into the canary"
+    )
     assert (canary / "pwned").exists()
 
 
@@ -226,5 +293,8 @@ def test_bundle_text_cells_never_start_a_formula(clean_dataset, tmp_path):
                     if cell[:1] in LEADS:
                         bad += 1
     descriptor = json.loads((done.folder / "datapackage.json").read_text())
-    print(f"bundle: {cells} cells in {len(descriptor['resources'])} tables, {bad} start with a formula character")
+    print(
+        f"bundle: {cells} cells in {len(descriptor['resources'])} tables, "
+        f"{bad} start with a formula character"
+    )
     assert cells > 50 and bad == 0

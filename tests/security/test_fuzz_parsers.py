@@ -24,7 +24,9 @@ from tablekeeper.model import FIELDS
 from tablekeeper.store import Dataset
 
 FUZZ = settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-chem_text = st.text(st.sampled_from("HCONSClFeNaKMgCa()[]{}.·*0123456789+- ^eE") | st.characters(), max_size=60)
+chem_text = st.text(
+    st.sampled_from("HCONSClFeNaKMgCa()[]{}.·*0123456789+- ^eE") | st.characters(), max_size=60
+)
 unit_text = st.text(st.sampled_from("kJcalmolKgeVs/*^()-·⁻¹ 0123456789.eE_+") | st.characters(), max_size=40)
 
 
@@ -63,14 +65,17 @@ def test_unit_factor_returns_a_finite_number_or_refuses(unit: str, field: str) -
 
 
 @FUZZ
-@given(st.text(max_size=40) | st.from_regex(r"\A[-+−]?\d{1,400}(\.\d*)?([eE][-+]?\d{1,4})?\s*(kJ/mol|kcal/mol|J/mol/K)?\Z"),
-       st.sampled_from(FIELDS))
+@given(
+    st.text(max_size=40)
+    | st.from_regex(r"\A[-+−]?\d{1,400}(\.\d*)?([eE][-+]?\d{1,4})?\s*(kJ/mol|kcal/mol|J/mol/K)?\Z"),
+    st.sampled_from(FIELDS),
+)
 @example("1e400 kJ/mol", "dfH298")
 @example("9" * 400, "S298")
 @example("-1e-400 kJ/mol", "dfH298")
 def test_parse_quantity_returns_finite_values_or_refuses(text: str, field: str) -> None:
     try:
-        value, unit, entered = units.parse_quantity(text, field)
+        value, _, entered = units.parse_quantity(text, field)
     except UnitError:
         return
     assert math.isfinite(value) and math.isfinite(entered), (text, value)
@@ -79,7 +84,8 @@ def test_parse_quantity_returns_finite_values_or_refuses(text: str, field: str) 
 json_bytes = st.binary(max_size=300) | st.recursive(
     st.none() | st.booleans() | st.integers() | st.floats() | st.text(max_size=10),
     lambda kids: st.lists(kids, max_size=4) | st.dictionaries(st.text(max_size=5), kids, max_size=4),
-    max_leaves=20).map(lambda o: repr(o).replace("'", '"').replace("None", "null").encode())
+    max_leaves=20,
+).map(lambda o: repr(o).replace("'", '"').replace("None", "null").encode())
 
 
 @FUZZ
@@ -100,8 +106,11 @@ def test_jsonio_loads_returns_or_refuses(raw: bytes) -> None:
 def scratch():
     base = Path(tempfile.mkdtemp(prefix="tk-fuzz-"))
     ds = Dataset.init(base / "ds", "fuzz")
-    ds.save("species", {"id": "water", "formula": "H2O", "phase": "l", "charge": 0, "status": "draft",
-                        "properties": {}}, expected_revision=None)
+    ds.save(
+        "species",
+        {"id": "water", "formula": "H2O", "phase": "l", "charge": 0, "status": "draft", "properties": {}},
+        expected_revision=None,
+    )
     yield ds
     shutil.rmtree(base, ignore_errors=True)
 
@@ -118,14 +127,20 @@ def test_journal_reader_reports_every_bad_line_and_never_raises(scratch: Dataset
 
 
 csv_cell = st.text(max_size=12) | st.sampled_from(["H2O", "g", "l", "aq", "-285.83", "1e400", "nan", "x", ""])
-csv_header = st.lists(st.sampled_from(["id", "formula", "phase", "form", "charge", "name", "dfH298", "S298",
-                                       "u_dfH298", "status", "junk"]), min_size=1, max_size=7)
+csv_header = st.lists(
+    st.sampled_from(
+        ["id", "formula", "phase", "form", "charge", "name", "dfH298", "S298", "u_dfH298", "status", "junk"]
+    ),
+    min_size=1,
+    max_size=7,
+)
 
 
 @FUZZ
 @given(csv_header, st.lists(st.lists(csv_cell, max_size=8), max_size=5), st.booleans())
-def test_csv_import_plans_or_refuses(scratch: Dataset, header: list[str], rows: list[list[str]],
-                                     update: bool) -> None:
+def test_csv_import_plans_or_refuses(
+    scratch: Dataset, header: list[str], rows: list[list[str]], update: bool
+) -> None:
     import csv
     import io
 
@@ -159,14 +174,40 @@ def test_csv_import_of_raw_bytes_plans_or_refuses(scratch: Dataset, raw: bytes) 
 
 def _thermo_species() -> dict[str, dict]:
     def sp(ident, formula, phase, charge=0):
-        return {"id": ident, "formula": formula, "phase": phase, "charge": charge, "status": "draft",
-                "properties": {"dfH298": {"value": -1.0, "unit": "kJ/mol"}}}
+        return {
+            "id": ident,
+            "formula": formula,
+            "phase": phase,
+            "charge": charge,
+            "status": "draft",
+            "properties": {"dfH298": {"value": -1.0, "unit": "kJ/mol"}},
+        }
 
-    return {s["id"]: s for s in (sp("h2-g", "H2", "g"), sp("o2-g", "O2", "g"), sp("h2o-l", "H2O", "l"),
-                                 sp("h2o-g", "H2O", "g"), sp("h-aq", "H+", "aq", 1), sp("oh-aq", "OH-", "aq", -1))}
+    return {
+        s["id"]: s
+        for s in (
+            sp("h2-g", "H2", "g"),
+            sp("o2-g", "O2", "g"),
+            sp("h2o-l", "H2O", "l"),
+            sp("h2o-g", "H2O", "g"),
+            sp("h-aq", "H+", "aq", 1),
+            sp("oh-aq", "OH-", "aq", -1),
+        )
+    }
 
 
-_EQ_PARTS = [*"HO2()+=-> →glaq.1/3½ ", "h2-g", "o2-g", "h2o-l", "H2O(l)", "OH-(aq)", "H+(aq)", "2 ", " = ", " + "]
+_EQ_PARTS = [
+    *"HO2()+=-> →glaq.1/3½ ",
+    "h2-g",
+    "o2-g",
+    "h2o-l",
+    "H2O(l)",
+    "OH-(aq)",
+    "H+(aq)",
+    "2 ",
+    " = ",
+    " + ",
+]
 eq_text = st.lists(st.sampled_from(_EQ_PARTS), max_size=20).map("".join)
 
 

@@ -16,15 +16,16 @@ import subprocess
 import sys
 import time
 from importlib import resources
-from pathlib import Path
 
 import pytest
 from jsonschema import Draft202012Validator
 
 from tablekeeper import cli, validation
 
-_RECORD = (b'{"charge": 0, "formula": "He", "id": "bad", "phase": "g", "properties": {}, "revision": 1, '
-           b'"status": "draft"%s}')
+_RECORD = (
+    b'{"charge": 0, "formula": "He", "id": "bad", "phase": "g", "properties": {}, "revision": 1, '
+    b'"status": "draft"%s}'
+)
 
 #: case -> (bytes of species/bad.json, the words the refusal must contain)
 JSON_CASES = {
@@ -33,7 +34,10 @@ JSON_CASES = {
     "Infinity": (_RECORD % b', "notes": Infinity', "Infinity is not a number JSON allows"),
     "-Infinity": (_RECORD % b', "notes": -Infinity', "-Infinity is not a number JSON allows"),
     "1e400": (_RECORD % b', "notes": 1e400', "number is infinity when parsed as double"),
-    "5000-digit integer": (_RECORD % (b', "notes": ' + b"7" * 5000), "number is infinity when parsed as double"),
+    "5000-digit integer": (
+        _RECORD % (b', "notes": ' + b"7" * 5000),
+        "number is infinity when parsed as double",
+    ),
     "10^5 brackets": (b"[" * 100_000 + b"]" * 100_000, "depth limit exceeded"),
     "10^5 objects": (b'{"a":' * 100_000 + b"1" + b"}" * 100_000, "depth limit exceeded"),
     "50 MB": (_RECORD % (b', "notes": "' + b"x" * (50 << 20) + b'"'), "larger than the 1048576 bytes"),
@@ -57,8 +61,10 @@ CSV_CASES = {
     "invalid UTF-8": ((_HEAD + "x,He,g,1,0,caf").encode() + b"\xe9\n", "is not valid UTF-8"),
     "byte-order mark": (b"\xef\xbb\xbf" + _HEAD.encode() + b"x,He,g,1,0,a\n", "byte-order mark"),
     "NUL byte": ((_HEAD + "x,He,g,1,0,a\x00b\n").encode(), "contains a NUL byte"),
-    "formula in a cell": ((_HEAD + 'x,He,g,1,0,"=HYPERLINK(""http://x"")"\n').encode(),
-                          "may not begin with =, +, @, tab or carriage return"),
+    "formula in a cell": (
+        (_HEAD + 'x,He,g,1,0,"=HYPERLINK(""http://x"")"\n').encode(),
+        "may not begin with =, +, @, tab or carriage return",
+    ),
 }
 
 
@@ -123,8 +129,10 @@ def test_import_refuses_each_hostile_csv_in_one_sentence(clean_dataset, tmp_path
         assert str(f) in out, f"{case}: the file is not named: {out[:300]}"
     assert sorted(p.name for p in (root / "species").iterdir()) == before
     assert (root / "journal.jsonl").read_bytes() == journal, "a refused import changed the journal"
-    print(f"import refused {len(CSV_CASES)} of {len(CSV_CASES)} hostile CSV files (exit 2, nothing written): "
-          + "; ".join(times))
+    print(
+        f"import refused {len(CSV_CASES)} of {len(CSV_CASES)} hostile CSV files (exit 2, nothing written): "
+        + "; ".join(times)
+    )
 
 
 @pytest.mark.timeout(120)
@@ -133,15 +141,26 @@ def test_hostile_files_through_the_installed_command(clean_dataset, tmp_path):
     root = clean_dataset.root
     (root / "species" / "bad.json").write_bytes(JSON_CASES["NaN"][0])
     t = time.perf_counter()
-    r = subprocess.run([sys.executable, "-m", "tablekeeper.cli", "check", str(root)], capture_output=True,
-                       text=True, timeout=120)
+    r = subprocess.run(
+        [sys.executable, "-m", "tablekeeper.cli", "check", str(root)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     t_check = time.perf_counter() - t
-    assert r.returncode == 1 and "NaN is not a number JSON allows" in r.stdout, (r.returncode, r.stdout[-500:])
+    assert r.returncode == 1 and "NaN is not a number JSON allows" in r.stdout, (
+        r.returncode,
+        r.stdout[-500:],
+    )
     f = tmp_path / "in.csv"
     f.write_bytes(CSV_CASES["byte-order mark"][0])
     t = time.perf_counter()
-    r = subprocess.run([sys.executable, "-m", "tablekeeper.cli", "import", str(root), str(f)],
-                       capture_output=True, text=True, timeout=120)
+    r = subprocess.run(
+        [sys.executable, "-m", "tablekeeper.cli", "import", str(root), str(f)],
+        capture_output=True,
+        text=True,
+        timeout=120,
+    )
     t_import = time.perf_counter() - t
     assert r.returncode == 2 and "byte-order mark" in r.stderr and "Traceback" not in r.stderr, r.stderr
     print(f"as processes: check {t_check:.2f} s, import {t_import:.2f} s (interpreter start-up included)")
@@ -167,8 +186,9 @@ def _formats(node: object) -> set[str]:
 
 def test_every_format_the_schemas_use_is_really_checked():
     used: set[str] = set()
-    files = sorted(p for p in resources.files("tablekeeper").joinpath("schemas").iterdir()
-                   if p.name.endswith(".json"))
+    files = sorted(
+        p for p in resources.files("tablekeeper").joinpath("schemas").iterdir() if p.name.endswith(".json")
+    )
     for f in files:
         used |= _formats(json.loads(f.read_text("utf-8")))
     assert used, "no format keyword found: the walk is broken"
@@ -182,7 +202,16 @@ def test_every_format_the_schemas_use_is_really_checked():
         assert not list(v.iter_errors(good)), f"format {fmt!r} refused {good!r}"
     assert set(validation.FORMATS_USED) == used, (validation.FORMATS_USED, used)
     # And through the validator the product uses, on a real document kind.
-    flag = {"id": "f1", "revision": 1, "species": "x", "field": "dfH298", "note": "n", "blocking": False,
-            "status": "open", "raised_by": "u", "raised_at": FORMAT_EXAMPLES["date-time"][0]}
+    flag = {
+        "id": "f1",
+        "revision": 1,
+        "species": "x",
+        "field": "dfH298",
+        "note": "n",
+        "blocking": False,
+        "status": "open",
+        "raised_by": "u",
+        "raised_at": FORMAT_EXAMPLES["date-time"][0],
+    }
     assert validation.errors("flags", flag), "a flag with an impossible date-time passed validation"
     print(f"formats used by {len(files)} schemas: {sorted(used)}; each refuses a bad value")

@@ -26,21 +26,127 @@ from tablekeeper.importers import plan_import
 from tablekeeper.store import SLUG, Dataset, check_id
 
 HOSTILE = [
-    "..", ".", "../", "../x", "../../etc/passwd", "..\\..\\windows\\win.ini", "/etc/passwd", "/tmp/tk-escape",
-    "C:\\evil", "c:", "\\\\server\\share", "a/b", "a\\b", "a\x00b", "\x00", "abc\x00.json", "%2e%2e",
-    "%2e%2e%2f", "..%2f", "%2fetc", "%00", "~", "~root", "$HOME", "${HOME}", "a\nb", "abc\n", "\nabc",
-    " abc", "abc ", "abc\t", "ＡＢＣ", "ａｂｃ", "\u0430bc", "ab\u0441", "stra\u00dfe", "\ufb01le", "\u0131d",
-    "\u212aelvin", "e\u0301", "\u202eabc", "a\u200bb", "\ufeffabc", "x" * 300, "a" * 65, "CON", "Con",
-    "con", "aux", "nul", "prn", "com1", "lpt1", "con.txt", "nul.json", ".hidden", "-abc", "_abc", "abc.",
-    "abc.json", ".json", "a..b", "abc/", "abc:stream", "abc*", "abc?", "abc|", "abc<", "abc>", 'abc"',
-    "", " ", "A", "ABC", "abc-\u2013", "1\u00bd", "\u0661\u0662", "x\udcff", "abc\r", "abc\x1b[2J",
-    "\u2024\u2024", "\uff0e\uff0e", "\u2215etc", "\u29f5x",
+    "..",
+    ".",
+    "../",
+    "../x",
+    "../../etc/passwd",
+    "..\\..\\windows\\win.ini",
+    "/etc/passwd",
+    "/tmp/tk-escape",
+    "C:\\evil",
+    "c:",
+    "\\\\server\\share",
+    "a/b",
+    "a\\b",
+    "a\x00b",
+    "\x00",
+    "abc\x00.json",
+    "%2e%2e",
+    "%2e%2e%2f",
+    "..%2f",
+    "%2fetc",
+    "%00",
+    "~",
+    "~root",
+    "$HOME",
+    "${HOME}",
+    "a\nb",
+    "abc\n",
+    "\nabc",
+    " abc",
+    "abc ",
+    "abc\t",
+    "ＡＢＣ",
+    "ａｂｃ",
+    "\u0430bc",
+    "ab\u0441",
+    "stra\u00dfe",
+    "\ufb01le",
+    "\u0131d",
+    "\u212aelvin",
+    "e\u0301",
+    "\u202eabc",
+    "a\u200bb",
+    "\ufeffabc",
+    "x" * 300,
+    "a" * 65,
+    "CON",
+    "Con",
+    "con",
+    "aux",
+    "nul",
+    "prn",
+    "com1",
+    "lpt1",
+    "con.txt",
+    "nul.json",
+    ".hidden",
+    "-abc",
+    "_abc",
+    "abc.",
+    "abc.json",
+    ".json",
+    "a..b",
+    "abc/",
+    "abc:stream",
+    "abc*",
+    "abc?",
+    "abc|",
+    "abc<",
+    "abc>",
+    'abc"',
+    "",
+    " ",
+    "A",
+    "ABC",
+    "abc-\u2013",
+    "1\u00bd",
+    "\u0661\u0662",
+    "x\udcff",
+    "abc\r",
+    "abc\x1b[2J",
+    "\u2024\u2024",
+    "\uff0e\uff0e",
+    "\u2215etc",
+    "\u29f5x",
 ]
 NOT_STRINGS = [None, 123, 1.5, ["a"], {"a": 1}, b"abc", True]
 
-_FRAGMENTS = ["..", ".", "/", "\\", "%2e", "%2f", "%5c", "\x00", "a", "z9", "-", "_", " ", "\n", "\t",
-              "con", "\u0430", "\uff0e", "\u2215", "\u202e", "\u200b", "C:", "~", "x" * 70, "É", "ǅ",
-              "\U0001f600", "etc", "passwd", "\r", "$", "*"]
+_FRAGMENTS = [
+    "..",
+    ".",
+    "/",
+    "\\",
+    "%2e",
+    "%2f",
+    "%5c",
+    "\x00",
+    "a",
+    "z9",
+    "-",
+    "_",
+    " ",
+    "\n",
+    "\t",
+    "con",
+    "\u0430",
+    "\uff0e",
+    "\u2215",
+    "\u202e",
+    "\u200b",
+    "C:",
+    "~",
+    "x" * 70,
+    "É",
+    "ǅ",
+    "\U0001f600",
+    "etc",
+    "passwd",
+    "\r",
+    "$",
+    "*",
+]
 
 
 def hostile_ids(n: int, seed: int = 7) -> list[str]:
@@ -132,17 +238,23 @@ def test_no_identifier_escapes_the_dataset(tmp_path, capsys):
     # What is on disk now.
     after = _tree(tmp_path)
     new = after - before
-    outside = sorted(p for p in new if not p.startswith(("ds/species/", "ds/flags/", "inputs")) and
-                     p not in ("ds/journal.jsonl", "ds/.tablekeeper.lock"))
+    outside = sorted(
+        p
+        for p in new
+        if not p.startswith(("ds/species/", "ds/flags/", "inputs"))
+        and p not in ("ds/journal.jsonl", "ds/.tablekeeper.lock")
+    )
     bad_names = sorted(p for p in new if p.startswith("ds/species/") and not SLUG.match(Path(p).stem))
     escaped += outside + bad_names
     escaped += [f"absolute {i!r}" for i, p in absolute.items() if p.exists() and i not in before_abs]
     assert not any(canary.iterdir()), "the canary folder beside the dataset is not empty"
     windows = sorted(i for i in accepted if i.split(".")[0] in ("con", "aux", "nul", "prn", "com1", "lpt1"))
     n = len(ids) + len(NOT_STRINGS)
-    print(f"identifiers: {len(escaped)} of {n} escaped; {len(accepted)} accepted as slugs (inside the "
-          f"dataset), {n - len(accepted)} refused; import column {len(sample)} ids, CLI 120; "
-          f"Windows device names accepted as slugs: {windows}")
+    print(
+        f"identifiers: {len(escaped)} of {n} escaped; {len(accepted)} accepted as slugs (inside the "
+        f"dataset), {n - len(accepted)} refused; import column {len(sample)} ids, CLI 120; "
+        f"Windows device names accepted as slugs: {windows}"
+    )
     assert not escaped, escaped[:20]
     assert not crashes, crashes[:20]
 
@@ -151,8 +263,12 @@ def test_no_identifier_escapes_the_dataset(tmp_path, capsys):
 def test_command_line_refuses_path_like_ids_as_a_process(clean_dataset, tmp_path):
     root = clean_dataset.root
     for ident in ("../../canary", "/tmp/tk-escape", "..", "a\\b", "\u0430bc"):
-        r = subprocess.run([sys.executable, "-m", "tablekeeper.cli", "flag", str(root), ident, "dfH298",
-                            "--note", "x"], capture_output=True, text=True, timeout=60)
+        r = subprocess.run(
+            [sys.executable, "-m", "tablekeeper.cli", "flag", str(root), ident, "dfH298", "--note", "x"],
+            capture_output=True,
+            text=True,
+            timeout=60,
+        )
         assert r.returncode == 2, (ident, r.stdout, r.stderr)
         assert "is not a valid identifier" in r.stderr or "no species named" in r.stderr, r.stderr
         assert "Traceback" not in r.stderr
@@ -167,8 +283,9 @@ def test_control_without_id_check_paths_escape(tmp_path, monkeypatch):
     root = tmp_path / "ds"
     ds = Dataset.init(root, "control")
     monkeypatch.setattr(store, "check_id", lambda ident, what="identifier": ident)
-    escaped = [i for i in HOSTILE if "\x00" not in i
-               and not _inside(ds.path("species", i), root / "species")]
-    print(f"control without the id check: {len(escaped)} of {len(HOSTILE)} hostile ids give a path outside "
-          "species/")
+    escaped = [i for i in HOSTILE if "\x00" not in i and not _inside(ds.path("species", i), root / "species")]
+    print(
+        f"control without the id check: {len(escaped)} of {len(HOSTILE)} hostile ids give a path outside "
+        "species/"
+    )
     assert escaped, "no hostile id escapes even without the check: the test cannot fail"
