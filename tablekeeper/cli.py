@@ -152,13 +152,11 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def _extend(sub) -> None:
-    """Commands whose core lives in thermo and bundle."""
-    for mod in ("cli_thermo", "cli_bundle"):
-        try:
-            module = __import__(f"tablekeeper.{mod}", fromlist=["register"])
-        except ModuleNotFoundError:
-            continue
-        module.register(sub)
+    """Commands whose core lives in thermo (table, reaction) and bundle (release, diff, verify)."""
+    from . import cli_bundle, cli_thermo
+
+    cli_thermo.register(sub)
+    cli_bundle.register(sub)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -61,6 +61,61 @@ def _hill_order(counts: dict[str, int]) -> tuple[tuple[str, int], ...]:
     return tuple((e, counts[e]) for e in order)
 
 
+def _molmass(s: str, text: str) -> tuple[dict[str, int], float]:
+    """Element counts and molar mass (neutral) of a formula body, read by molmass."""
+    try:
+        f = molmass.Formula(s)
+        comp = f.composition()
+        counts: dict[str, int] = {}
+        for item in comp.values():
+            sym = item.symbol
+            if sym == "e-":
+                continue
+            counts[sym] = counts.get(sym, 0) + int(item.count)
+        mass = float(f.mass)
+    except Exception as exc:
+        reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise FormulaError(f"{text!r} does not parse as a formula ({reason})", field="formula") from None
+    return counts, mass
+
+
+#: Read plain formulas (element symbols and counts only) without molmass's general parser, which
+#: costs about 0.1 ms a formula: most of a 100k-species load when formulas are distinct. False forces
+#: molmass for every formula; tests/checks/test_fast_paths.py shows both give the same Formula.
+FAST_PLAIN = True
+_PLAIN = re.compile(r"(?:[A-Z][a-z]?[0-9]*)+")
+_TOKEN = re.compile(r"([A-Z][a-z]?)([0-9]*)")
+# What molmass would read as something other than element symbols: its group abbreviations (Me, Et,
+# Ph, Cp, ...), deuterium written D, and one-letter oligonucleotide and peptide sequences.
+_GROUP = re.compile("|".join(re.escape(g) for g in sorted(molmass.GROUPS, key=len, reverse=True)))
+_DEUTERIUM = re.compile(r"D(?![a-z])")
+_AMINO = frozenset(molmass.AMINOACIDS)
+
+
+def _plain(s: str) -> tuple[dict[str, int], float] | None:
+    """Counts and mass of a plain formula, computed as molmass computes them (its elements' average
+    masses, summed in the same order, so the float is identical), or None when molmass is needed."""
+    if not _PLAIN.fullmatch(s) or _GROUP.search(s) or _DEUTERIUM.search(s):
+        return None
+    chars = set(s)
+    if len(s) > 1 and (chars <= set("ATCG") or chars <= set("AUCG") or chars <= _AMINO):
+        return None
+    table = molmass.ELEMENTS
+    # molmass scans the formula from its end; the mass is summed in that order of first appearance.
+    scanned: dict[str, int] = {}
+    for sym, n in reversed(_TOKEN.findall(s)):
+        if sym not in table:
+            return None
+        count = int(n) if n else 1
+        if count == 0:
+            return None
+        scanned[sym] = scanned.get(sym, 0) + count
+    mass = 0.0
+    for sym, count in scanned.items():
+        mass += table[sym].mass * count
+    return scanned, mass
+
+
 @functools.lru_cache(maxsize=65536)
 def parse(text: str) -> Formula:
     """Parse a formula; raise FormulaError with a sentence when it does not parse."""
@@ -79,19 +134,11 @@ def parse(text: str) -> Formula:
     if not s or not re.fullmatch(r"[A-Za-z0-9().\[\]{}]+", s):
         raise FormulaError(f"{text!r} is not a formula (letters, digits, brackets and a hydrate dot only)",
                            field="formula")
-    try:
-        f = molmass.Formula(s)
-        comp = f.composition()
-        counts: dict[str, int] = {}
-        for item in comp.values():
-            sym = item.symbol
-            if sym == "e-":
-                continue
-            counts[sym] = counts.get(sym, 0) + int(item.count)
-        mass = float(f.mass)
-    except Exception as exc:
-        reason = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-        raise FormulaError(f"{text!r} does not parse as a formula ({reason})", field="formula") from None
+    plain = _plain(s) if FAST_PLAIN else None
+    if plain is not None:
+        counts, mass = plain
+    else:
+        counts, mass = _molmass(s, text)
     isotopes = sorted(sym for sym in counts if not sym[:1].isalpha())
     if isotopes:
         raise FormulaError(f"{text!r} names the isotope {isotopes[0]} (from D, T or a leading mass number); "

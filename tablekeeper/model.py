@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from . import formula as _formula
+from .bulk import paused_gc
 from .errors import FormulaError
 from .units import FIELD_KINDS
 
@@ -112,17 +113,12 @@ def _num(v: object) -> float:
     return float(v) if isinstance(v, int | float) and not isinstance(v, bool) else np.nan
 
 
-def _property_columns(pv: object) -> tuple:
-    """(value, standard uncertainty, source, method, entered unit) of one property object."""
-    if not isinstance(pv, dict):
-        return (np.nan, np.nan, None, None, None)
-    u = pv.get("uncertainty")
-    k = pv.get("coverage", 1.0) or 1.0
+def _std_u(u: object, k: object) -> float:
+    """Standard uncertainty U/k; ``k`` as stored (absent, zero or null mean 1), NaN when unusable."""
+    k = k or 1.0
     ok = (isinstance(u, int | float) and not isinstance(u, bool) and isinstance(k, int | float)
           and not isinstance(k, bool) and k > 0)
-    ent = pv.get("entered")
-    return (_num(pv.get("value")), float(u) / float(k) if ok else np.nan, pv.get("source"), pv.get("method"),
-            ent.get("unit") if isinstance(ent, dict) else None)
+    return float(u) / float(k) if ok else np.nan
 
 
 def _formula_columns(text: object) -> tuple:
@@ -134,34 +130,54 @@ def _formula_columns(text: object) -> tuple:
         return (None, np.nan, np.nan, np.nan, str(getattr(exc, "reason", exc)))
 
 
-_SCALAR_COLUMNS = ("id", "name", "formula", "phase", "form", "charge", "reference_state", "status", "cp_kind")
-_FORMULA_COLUMNS = ("hill", "atoms", "molar_mass", "formula_charge", "formula_error")
-_PROPERTY_COLUMNS = tuple((f, f"u_{f}", f"src_{f}", f"method_{f}", f"entered_unit_{f}") for f in FIELDS)
+_EMPTY: dict = {}
+_NUMERIC_COLUMNS = ("charge", "atoms", "molar_mass", "formula_charge", *FIELDS, *(f"u_{f}" for f in FIELDS))
 
 
 def species_frame(records: Mapping[str, Mapping]) -> pd.DataFrame:
     """One row per species, indexed by id. Numbers are float64 (NaN where missing); uncertainties are
-    standard uncertainties (U/k). Formula-derived columns come from the formula parser (cached)."""
+    standard uncertainties (U/k). Formula-derived columns come from the formula parser (cached).
+
+    Built column by column with one comprehension per column (a row at a time costs several function
+    calls per value, which at 100k species is seconds); tests/checks/test_fast_paths.py holds the
+    row-at-a-time definition and compares the two on hostile records.
+    """
     ids = sorted(records)
-    rows = []
-    for ident in ids:
-        rec = records[ident]
-        props = rec.get("properties")
-        if not isinstance(props, dict):
-            props = {}
-        ch = rec.get("charge")
-        row = [ident, rec.get("name"), rec.get("formula"), rec.get("phase"), rec.get("form"),
-               ch if isinstance(ch, int) and not isinstance(ch, bool) else np.nan,
-               rec.get("reference_state") is True, rec.get("status"), _get(rec.get("cp_model"), "kind")]
-        row.extend(_formula_columns(rec.get("formula")))
+    with paused_gc():
+        recs = [records[i] for i in ids]
+        cols: dict[str, list] = {"id": ids}
+        for c in ("name", "formula", "phase", "form", "status"):
+            cols[c] = [r.get(c) for r in recs]
+        cols["charge"] = [c if type(c) is int else (c if isinstance(c, int) and not isinstance(c, bool)
+                                                     else np.nan)
+                          for c in (r.get("charge") for r in recs)]
+        cols["reference_state"] = [r.get("reference_state") is True for r in recs]
+        cols["cp_kind"] = [_get(r.get("cp_model"), "kind") for r in recs]
+        parsed: dict = {}
+        formula_rows = []
+        for text in cols["formula"]:
+            try:
+                row = parsed.get(text)
+                if row is None:
+                    row = parsed[text] = _formula_columns(text)
+            except TypeError:  # an unhashable "formula" (a list): the parser's error, uncached
+                row = _formula_columns(text)
+            formula_rows.append(row)
+        for j, c in enumerate(("hill", "atoms", "molar_mass", "formula_charge", "formula_error")):
+            cols[c] = [row[j] for row in formula_rows]
+        props = [p if isinstance(p, dict) else _EMPTY for p in (r.get("properties") for r in recs)]
         for fld in FIELDS:
-            row.extend(_property_columns(props.get(fld)))
-        rows.append(row)
-    columns = [*_SCALAR_COLUMNS, *_FORMULA_COLUMNS, *(c for group in _PROPERTY_COLUMNS for c in group)]
-    assert tuple(columns) == tuple(FRAME_COLUMNS)
-    frame = pd.DataFrame.from_records(rows, columns=columns) if rows else pd.DataFrame(columns=columns)
-    for c in ["charge", "atoms", "molar_mass", "formula_charge", *FIELDS, *(f"u_{f}" for f in FIELDS)]:
-        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
-    frame["reference_state"] = frame["reference_state"].astype(bool)
-    frame.index = pd.Index(ids, name="species")
+            pvs = [p.get(fld) for p in props]
+            pvs = [pv if isinstance(pv, dict) else _EMPTY for pv in pvs]
+            cols[fld] = [v if type(v) is float else _num(v) for v in (pv.get("value") for pv in pvs)]
+            cols[f"u_{fld}"] = [_std_u(pv.get("uncertainty"), pv.get("coverage", 1.0)) for pv in pvs]
+            cols[f"src_{fld}"] = [pv.get("source") for pv in pvs]
+            cols[f"method_{fld}"] = [pv.get("method") for pv in pvs]
+            cols[f"entered_unit_{fld}"] = [e.get("unit") if isinstance(e, dict) else None
+                                           for e in (pv.get("entered") for pv in pvs)]
+        frame = pd.DataFrame(cols, columns=FRAME_COLUMNS)
+        for c in _NUMERIC_COLUMNS:
+            frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
+        frame["reference_state"] = frame["reference_state"].astype(bool)
+        frame.index = pd.Index(ids, name="species")
     return frame

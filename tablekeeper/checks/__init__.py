@@ -14,6 +14,7 @@ from typing import Any
 
 import pandas as pd
 
+from ..bulk import paused_gc
 from ..model import species_frame
 from ..store import Dataset, LoadReport
 
@@ -164,10 +165,11 @@ def run(ctx: Context, only: Iterable[str] | None = None) -> Report:
     _load_families()
     wanted = set(only) if only else None
     findings: list[Finding] = []
-    for spec in CHECKS.values():
-        if wanted is not None and spec.id not in wanted:
-            continue
-        findings.extend(spec.run(ctx))
+    with paused_gc():  # the checks build many long-lived objects over a large heap (tablekeeper.bulk)
+        for spec in CHECKS.values():
+            if wanted is not None and spec.id not in wanted:
+                continue
+            findings.extend(spec.run(ctx))
     findings.sort(key=lambda f: f.sort_key)
     name = ctx.meta.get("name") if isinstance(ctx.meta, dict) else None
     return Report(dataset=str(name or ctx.root or "?"), findings=findings)

@@ -20,9 +20,9 @@ def schema_check(ctx: Context) -> Iterator[Finding]:
     for pointer, msg in validation.errors("dataset", ctx.meta):
         yield Finding("schema", "error", f"dataset.json {pointer or '/'}: {msg}", field=pointer or None)
     for kind, folder in _KIND_FOLDERS:
-        records = getattr(ctx, kind)
-        for ident, rec in records.items():
-            for pointer, msg in validation.errors(kind, rec):
+        invalid = validation.errors_many(kind, getattr(ctx, kind))
+        for ident, errs in invalid.items():
+            for pointer, msg in errs:
                 yield Finding("schema", "error", f"{folder}/{ident}.json {pointer or '/'}: {msg}",
                               species=ident if kind == "species" else None, field=pointer or None)
 

@@ -318,14 +318,24 @@ def num(v: float) -> str:
     return f"{round(float(v), 3):g}" if abs(v) < 1e6 else f"{v:.6g}"
 
 
-def _element_origins(ctx: Context, ident: str) -> str:
+def _element_origins(ctx: Context, idents) -> dict[str, str]:
+    """For each species of ``idents``: which elements took their reference entropy from where.
+
+    One pass over the composition table for all the species asked about (a filter of the whole table
+    per species would cost O(n) each, O(n²) over the findings of a large dataset)."""
     comp = composition(ctx)
-    els = sorted(set(comp.loc[comp["species"] == ident, "element"]))
+    part = comp[comp["species"].isin(list(idents))]
     ent = element_entropies(ctx)
-    by_origin: dict[str, list[str]] = {}
-    for el in els:
-        by_origin.setdefault(ent[el].origin, []).append(el)
-    return "; ".join(f"{', '.join(v)} from {k}" for k, v in by_origin.items())
+    els_of: dict[str, set] = {}
+    for sp, el in zip(part["species"].tolist(), part["element"].tolist(), strict=True):
+        els_of.setdefault(sp, set()).add(el)
+    out = {}
+    for ident in idents:
+        by_origin: dict[str, list[str]] = {}
+        for el in sorted(els_of.get(ident, ())):
+            by_origin.setdefault(ent[el].origin, []).append(el)
+        out[ident] = "; ".join(f"{', '.join(v)} from {k}" for k, v in by_origin.items())
+    return out
 
 
 @check("gibbs-consistency", "ΔfG° agrees with ΔfH° − T·ΔfS°, ΔfS° from S° and the element reference "
@@ -335,24 +345,27 @@ def gibbs_consistency(ctx: Context) -> Iterator[Finding]:
     for ident, why in gt.skipped.items():
         yield Finding("gibbs-consistency", "info", f"not checked: {why}", species=ident, field="dfG298")
     expected, resid, tol = gt.evaluate()
-    bad = np.abs(resid) > tol
+    bad = np.flatnonzero(np.abs(resid) > tol)
+    if not bad.size:
+        return
     fr = ctx.frame
     k = gt.k
-    for i in np.flatnonzero(bad):
-        ident = gt.ids[i]
-        row = fr.loc[ident]
-        z = row["formula_charge"]
+    bad_ids = gt.ids[bad]
+    origins = _element_origins(ctx, bad_ids.tolist())
+    phases = fr["phase"].reindex(bad_ids).tolist()
+    charges = fr["formula_charge"].reindex(bad_ids).tolist()
+    for i, ident, phase, z in zip(bad, bad_ids, phases, charges, strict=True):
         conv = ""
-        if row["phase"] == "aq" and z:
+        if phase == "aq" and z:
             conv = f"; aqueous ion: H+(aq) convention, + (z/2)·S°(H2, g) with z = {int(z)}"
-        elif row["phase"] == "g" and z:
+        elif phase == "g" and z:
             conv = f"; gas ion: electron-gas convention, + z·S°(e−) with z = {int(z)}"
         dfS = gt.S[i] - gt.sum_el[i]
         yield Finding(
             "gibbs-consistency", "error",
             f"ΔfG° = {num(gt.G[i])} kJ/mol, but ΔfH° − T·ΔfS° = {num(expected[i])} kJ/mol at 298.15 K "
             f"(ΔfS° = {num(dfS)} J/(mol·K) from S° = {num(gt.S[i])} and the element entropies: "
-            f"{_element_origins(ctx, ident)}{conv}); the difference {num(resid[i])} kJ/mol exceeds the "
+            f"{origins[ident]}{conv}); the difference {num(resid[i])} kJ/mol exceeds the "
             f"tolerance {num(tol[i])} kJ/mol = {num(k)} × the combined standard uncertainty of ΔfG°, "
             "ΔfH°, T·S° and the element entropies, with half a unit in the last digit given of each value",
             species=ident, field="dfG298", observed=gt.G[i], expected=expected[i], tolerance=tol[i])

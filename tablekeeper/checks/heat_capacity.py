@@ -25,13 +25,14 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Iterator
+from dataclasses import dataclass
 
 import numpy as np
 
 from ..errors import InputError
 from ..units import R
 from . import Context, Finding, check
-from .consistency import _ENTROPY_FACTORS, UnitSlip, coverage_k, num, rounding
+from .consistency import _ENTROPY_FACTORS, UnitSlip, _cache, coverage_k, num, rounding
 
 T_REF = 298.15
 #: Common-practice margin over Dulong–Petit (no source): solids reach about 1.2 × 3nR near melting.
@@ -184,24 +185,62 @@ _MODEL_ERRORS = (InputError, ValueError, TypeError, KeyError, IndexError, Arithm
 
 _ROW_COLUMNS = ("phase", "atoms", "Cp298", "u_Cp298", "dfH298", "u_dfH298", "S298", "u_S298")
 
+#: Evaluate the models in stacked arrays (tablekeeper.thermo.batch). False forces the per-model path
+#: through the public model classes, the reference that tests/checks/test_batch_equivalence.py compares
+#: the batch path with.
+BATCH = True
+
+
+@dataclass
+class _ModelTable:
+    """The species that carry a model, in frame order, with the scalars the model checks need."""
+
+    ids: list[str]
+    objs: list[dict]
+    cols: dict[str, np.ndarray]
+    values: dict[str, list]   # the same columns as plain Python values, for the per-model path
+
+    def row(self, pos: int) -> dict:
+        return {c: v[pos] for c, v in self.values.items()}
+
+
+def _model_table(ctx: Context) -> _ModelTable:
+    def build() -> _ModelTable:
+        fr = ctx.frame
+        has = fr["cp_kind"].notna().to_numpy()
+        sub = fr.loc[has]
+        keep, ids, objs = [], [], []
+        for i, ident in enumerate(sub.index):
+            rec = ctx.species.get(ident)
+            model = rec.get("cp_model") if isinstance(rec, dict) else None
+            if isinstance(model, dict):
+                keep.append(i)
+                ids.append(ident)
+                objs.append(model)
+        sub = sub.iloc[keep]
+        cols = {c: sub[c].to_numpy(float) for c in _ROW_COLUMNS if c != "phase"}
+        cols["phase"] = sub["phase"].to_numpy(object)
+        for fld in ("Cp298", "dfH298", "S298"):
+            cols[f"r_{fld}"] = rounding(sub, fld)
+        # Plain Python scalars per row: a pandas row lookup per model would cost more than the model.
+        values = {c: sub[c].tolist() for c in _ROW_COLUMNS}
+        values.update({f"r_{fld}": cols[f"r_{fld}"].tolist() for fld in ("Cp298", "dfH298", "S298")})
+        return _ModelTable(ids, objs, cols, values)
+
+    return _cache(ctx, "cp_model_table", build)
+
 
 def _models(ctx: Context) -> Iterator[tuple[str, dict, dict]]:
     """(id, cp_model object, the scalars the model checks need) for each species with a model."""
-    fr = ctx.frame
-    has = fr["cp_kind"].notna().to_numpy()
-    if not has.any():
-        return
-    sub = fr.loc[has]
-    # Plain Python scalars per row: a pandas row lookup per model would cost more than the model.
-    cols = {c: sub[c].tolist() for c in _ROW_COLUMNS}
-    cols["r_Cp298"] = rounding(sub, "Cp298").tolist()
-    cols["r_dfH298"] = rounding(sub, "dfH298").tolist()
-    cols["r_S298"] = rounding(sub, "S298").tolist()
-    for i, ident in enumerate(sub.index):
-        rec = ctx.species.get(ident)
-        model = rec.get("cp_model") if isinstance(rec, dict) else None
-        if isinstance(model, dict):
-            yield ident, model, {c: v[i] for c, v in cols.items()}
+    table = _model_table(ctx)
+    for pos, (ident, obj) in enumerate(zip(table.ids, table.objs, strict=True)):
+        yield ident, obj, table.row(pos)
+
+
+def _batch(ctx: Context):
+    from ..thermo import batch
+
+    return _cache(ctx, "cp_model_batch", lambda: batch.read_models(_model_table(ctx).objs))
 
 
 def _load_model(ident: str, obj: dict, check_id: str):
@@ -227,20 +266,35 @@ def _in_range(model, T: float) -> bool:
        "overlap; it agrees with Cp°(298.15) and reproduces ΔfH° and S° at 298.15 K")
 def cp_model(ctx: Context) -> Iterator[Finding]:
     k = coverage_k(ctx)
-    for ident, obj, row in _models(ctx):
-        model, failure = _load_model(ident, obj, "cp-model")
-        if failure is not None:
-            yield failure
-            continue
-        try:
-            # A model with absurd coefficients overflows; that shows as a non-finite Cp finding.
-            with np.errstate(all="ignore"):
-                found = list(_model_findings(ident, model, row, k))
-            yield from found
-        except _MODEL_ERRORS as exc:
-            reason = getattr(exc, "reason", None) or str(exc) or type(exc).__name__
-            yield Finding("cp-model", "error", f"the Cp(T) model cannot be evaluated: {reason}",
-                          species=ident, field="cp_model")
+    if not BATCH:
+        for ident, obj, row in _models(ctx):
+            yield from _one_cp_model(ident, obj, row, k)
+        return
+    table = _model_table(ctx)
+    mb = _batch(ctx)
+    per_model: list[list[Finding]] = [[] for _ in table.ids]
+    for pos in mb.unbatched:
+        per_model[pos] = _one_cp_model(table.ids[pos], table.objs[pos], table.row(pos), k)
+    with np.errstate(all="ignore"):
+        for group in mb.groups:
+            _group_model_findings(group, table, k, per_model)
+    for found in per_model:
+        yield from found
+
+
+def _one_cp_model(ident: str, obj: dict, row: dict, k: float) -> list[Finding]:
+    """The cp-model findings of one species through the per-model API (the reference path)."""
+    model, failure = _load_model(ident, obj, "cp-model")
+    if failure is not None:
+        return [failure]
+    try:
+        # A model with absurd coefficients overflows; that shows as a non-finite Cp finding.
+        with np.errstate(all="ignore"):
+            return list(_model_findings(ident, model, row, k))
+    except _MODEL_ERRORS as exc:
+        reason = getattr(exc, "reason", None) or str(exc) or type(exc).__name__
+        return [Finding("cp-model", "error", f"the Cp(T) model cannot be evaluated: {reason}",
+                        species=ident, field="cp_model")]
 
 
 def _finite(v: float) -> float:
@@ -327,19 +381,34 @@ def _model_findings(ident: str, model, row: dict, k: float) -> Iterator[Finding]
 
 @check("cp-continuity", "Cp, H and S are continuous at range breaks")
 def cp_continuity(ctx: Context) -> Iterator[Finding]:
-    for ident, obj, _row in _models(ctx):
-        model, failure = _load_model(ident, obj, "cp-continuity")
-        if failure is not None:
-            yield failure
-            continue
-        try:
-            with np.errstate(all="ignore"):
-                found = list(_continuity_findings(ident, model))
-            yield from found
-        except _MODEL_ERRORS as exc:
-            reason = getattr(exc, "reason", None) or str(exc) or type(exc).__name__
-            yield Finding("cp-continuity", "error", f"the Cp(T) model cannot be evaluated at its breaks: "
-                          f"{reason}", species=ident, field="cp_model")
+    if not BATCH:
+        for ident, obj, _row in _models(ctx):
+            yield from _one_continuity(ident, obj)
+        return
+    table = _model_table(ctx)
+    mb = _batch(ctx)
+    per_model: list[list[Finding]] = [[] for _ in table.ids]
+    for pos in mb.unbatched:
+        per_model[pos] = _one_continuity(table.ids[pos], table.objs[pos])
+    with np.errstate(all="ignore"):
+        for group in mb.groups:
+            _group_continuity_findings(group, table, per_model)
+    for found in per_model:
+        yield from found
+
+
+def _one_continuity(ident: str, obj: dict) -> list[Finding]:
+    """The cp-continuity findings of one species through the per-model API (the reference path)."""
+    model, failure = _load_model(ident, obj, "cp-continuity")
+    if failure is not None:
+        return [failure]
+    try:
+        with np.errstate(all="ignore"):
+            return list(_continuity_findings(ident, model))
+    except _MODEL_ERRORS as exc:
+        reason = getattr(exc, "reason", None) or str(exc) or type(exc).__name__
+        return [Finding("cp-continuity", "error", f"the Cp(T) model cannot be evaluated at its breaks: "
+                        f"{reason}", species=ident, field="cp_model")]
 
 
 def _continuity_findings(ident: str, model) -> Iterator[Finding]:
@@ -364,3 +433,168 @@ def _continuity_findings(ident: str, model) -> Iterator[Finding]:
                               f"{label} jumps {where}: {num(a)} below, {num(b)} {unit} above (tolerance "
                               f"{tol_q} {unit}); the integration constants of the two ranges disagree",
                               species=ident, field="cp_model", observed=b, expected=a, tolerance=tol_q)
+
+
+# -- the batch path ----------------------------------------------------------------------------------------
+# The same tests as _model_findings and _continuity_findings, over a group of models stacked by
+# tablekeeper.thermo.batch. Each finding goes to its model's list in the order the per-model path
+# yields it (ranges in order; within a range the low test before the high one), so that both paths
+# give the same report.
+
+
+def _group_model_findings(group, table: _ModelTable, k: float, out: list[list[Finding]]) -> None:
+    from ..thermo import batch
+
+    mem = group.members
+    ids = [table.ids[p] for p in mem]
+    lo, hi = group.lo, group.hi
+    gap = lo[:, 1:] > hi[:, :-1] + RANGE_SLACK
+    overlap = lo[:, 1:] < hi[:, :-1] - RANGE_SLACK
+    for r, j in zip(*np.nonzero(gap | overlap), strict=True):
+        b0, a1 = float(hi[r, j]), float(lo[r, j + 1])
+        if gap[r, j]:
+            text = f"the ranges leave a gap from {num(b0)} K to {num(a1)} K, where the model gives no Cp"
+        else:
+            text = (f"the ranges overlap from {num(a1)} K to {num(b0)} K, where two sets of coefficients "
+                    "claim the same temperatures")
+        out[mem[r]].append(Finding("cp-model", "error", text, species=ids[r], field="cp_model",
+                                   observed=a1, expected=b0))
+    phase = table.cols["phase"][mem]
+    atoms = table.cols["atoms"][mem]
+    gas = phase == "g"
+    condensed = np.isin(phase, _CONDENSED)
+    have_n = np.isfinite(atoms) & (atoms >= 1)
+    hi_cl = gas_cp_classical(np.where(have_n, atoms, 1))
+    lo_gas = gas_cp_lower()
+    grid = batch.sample_grid(group, GRID_POINTS)
+    cp_all = batch.segment_values(group, grid)[0]
+    rows = np.arange(group.size)
+    for j in range(group.nseg):
+        T, cp = grid[:, j, :], cp_all[:, j, :]
+        bad = ~np.isfinite(cp)
+        nonfinite = bad.any(axis=1)
+        first_bad = np.argmax(bad, axis=1)
+        jmin = np.argmin(np.where(bad, np.inf, cp), axis=1)
+        cmin, tmin = cp[rows, jmin], T[rows, jmin]
+        low_t = T <= MODEL_CLASSICAL_TMAX
+        jmax = np.argmax(np.where(low_t, cp, -np.inf), axis=1)
+        cmax, tmax = cp[rows, jmax], T[rows, jmax]
+        ok = ~nonfinite
+        too_low = ok & gas & (cmin < lo_gas - MODEL_CP_SLACK)
+        too_high = ok & gas & have_n & low_t.any(axis=1) & (cmax > hi_cl + MODEL_CP_SLACK)
+        not_pos = ok & condensed & (cmin <= 0)
+        hits = np.flatnonzero(nonfinite | too_low | too_high | not_pos)
+        for r in hits:
+            a, b = float(lo[r, j]), float(hi[r, j])
+            where = f"range {j + 1} ({num(a)}–{num(b)} K)"
+            found = out[mem[r]]
+            if nonfinite[r]:
+                found.append(Finding("cp-model", "error", f"the model gives no finite Cp at "
+                                     f"{num(T[r, first_bad[r]])} K in {where}", species=ids[r],
+                                     field="cp_model"))
+                continue
+            if too_low[r]:
+                found.append(Finding(
+                    "cp-model", "error",
+                    f"the model gives Cp = {num(cmin[r])} J/(mol·K) at {num(tmin[r])} K in {where}, "
+                    f"below 5/2 R = {num(lo_gas)} J/(mol·K), the least any ideal gas has "
+                    f"(slack {MODEL_CP_SLACK} for fitting)", species=ids[r], field="cp_model",
+                    observed=cmin[r], expected=lo_gas, tolerance=MODEL_CP_SLACK))
+            if too_high[r]:
+                found.append(Finding(
+                    "cp-model", "warning",
+                    f"the model gives Cp = {num(cmax[r])} J/(mol·K) at {num(tmax[r])} K in {where}, "
+                    f"above the classical limit {num(hi_cl[r])} J/(mol·K) for {_atoms_text(atoms[r])}; "
+                    "electronic states can exceed it", species=ids[r], field="cp_model",
+                    observed=cmax[r], expected=float(hi_cl[r]), tolerance=MODEL_CP_SLACK))
+            if not_pos[r]:
+                found.append(Finding(
+                    "cp-model", "error",
+                    f"the model gives Cp = {num(cmin[r])} J/(mol·K) at {num(tmin[r])} K in {where}; a pure "
+                    "phase has Cp > 0", species=ids[r], field="cp_model", observed=cmin[r], expected=0.0))
+    # Agreement with the record's values at 298.15 K, for the models that cover it.
+    inside = batch.covers(group, T_REF)
+    cols = {c: v[mem] for c, v in table.cols.items()}
+    cp298 = cols["Cp298"]
+    got = batch.cp_at(group, T_REF)
+    u = np.where(np.isfinite(cols["u_Cp298"]), cols["u_Cp298"], 0.0)
+    tol_cp = k * np.sqrt(u**2 + cols["r_Cp298"] ** 2 + (MODEL_CP_REL * cp298) ** 2)
+    bad_cp = inside & np.isfinite(cp298) & (np.abs(got - cp298) > tol_cp)
+    implied_h, implied_s = batch.implied_298(group)
+    checks = []
+    for implied, fld, label, unit, term in ((implied_h, "dfH298", "ΔfH°", "kJ/mol", MODEL_H_TERM),
+                                            (implied_s, "S298", "S°", "J/(mol·K)", MODEL_S_TERM)):
+        value = cols[fld]
+        u = np.where(np.isfinite(cols[f"u_{fld}"]), cols[f"u_{fld}"], 0.0)
+        tol = k * np.sqrt(u**2 + cols[f"r_{fld}"] ** 2 + term**2)
+        # NaN stands for "no such constant" (None in the per-model API); a NaN that the constants
+        # produce fails no comparison there either.
+        bad = inside & ~np.isnan(implied) & np.isfinite(value) & (np.abs(implied - value) > tol)
+        checks.append((bad, implied, value, tol, label, unit, term))
+    for r in np.flatnonzero(bad_cp | checks[0][0] | checks[1][0]):
+        found = out[mem[r]]
+        if bad_cp[r]:
+            g, c, t = float(got[r]), float(cp298[r]), float(tol_cp[r])
+            found.append(Finding(
+                "cp-model", "error",
+                f"the model gives Cp(298.15 K) = {num(g)} J/(mol·K) but Cp° is {num(c)}; the "
+                f"difference exceeds {num(t)} = {num(k)} × (uncertainty, rounding and "
+                f"{MODEL_CP_REL:.1%} for the fit)", species=ids[r], field="cp_model",
+                observed=g, expected=c, tolerance=t))
+        for bad, implied, value, tol, label, unit, term in checks:
+            if bad[r]:
+                im, v, t = float(implied[r]), float(value[r]), float(tol[r])
+                found.append(Finding(
+                    "cp-model", "error",
+                    f"the model's constants give {label}(298.15 K) = {num(im)} {unit} but the "
+                    f"record has {num(v)}; the difference exceeds {num(t)} = {num(k)} × "
+                    f"(uncertainty, rounding and {term} for the constants)", species=ids[r],
+                    field="cp_model", observed=im, expected=v, tolerance=t))
+
+
+def _py_max(a: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """Python's max(a, b) elementwise, NaN included: b only when b > a."""
+    return np.where(b > a, b, a)
+
+
+def _group_continuity_findings(group, table: _ModelTable, out: list[list[Finding]]) -> None:
+    from ..thermo import batch
+
+    if group.nseg < 2:
+        return
+    mem = group.members
+    n = group.size
+    for i in range(group.nseg - 1):
+        tb = group.lo[:, i + 1]
+        T = tb[:, None]
+        cp_l, h_l, s_l = (x[:, 0] for x in batch.segment_values(group, T, seg=np.full(n, i)))
+        cp_r, h_r, s_r = (x[:, 0] for x in batch.segment_values(group, T, seg=np.full(n, i + 1)))
+        tol_cp = _py_max(CONT_CP_REL * _py_max(np.abs(cp_l), np.abs(cp_r)), np.full(n, CONT_CP_ABS))
+        jump_cp = ~(np.abs(cp_l - cp_r) <= tol_cp)
+        if group.kind == "shomate":  # a range without F (G) has no absolute H (S)
+            has_h = ~np.isnan(group.c_h[:, i]) & ~np.isnan(group.c_h[:, i + 1])
+            has_s = ~np.isnan(group.c_s[:, i]) & ~np.isnan(group.c_s[:, i + 1])
+        else:
+            has_h = has_s = np.ones(n, dtype=bool)
+        jump_h = has_h & ~(np.abs(h_l - h_r) <= CONT_H)
+        jump_s = has_s & ~(np.abs(s_l - s_r) <= CONT_S)
+        for r in np.flatnonzero(jump_cp | jump_h | jump_s):
+            ident = table.ids[mem[r]]
+            found = out[mem[r]]
+            where = f"at the break {num(tb[r])} K between ranges {i + 1} and {i + 2}"
+            if jump_cp[r]:
+                a, b, t = float(cp_l[r]), float(cp_r[r]), float(tol_cp[r])
+                found.append(Finding(
+                    "cp-continuity", "error",
+                    f"Cp jumps {where}: {num(a)} below, {num(b)} J/(mol·K) above (tolerance "
+                    f"{num(t)}: the larger of {CONT_CP_REL:.0%} and {CONT_CP_ABS} J/(mol·K))",
+                    species=ident, field="cp_model", observed=b, expected=a, tolerance=t))
+            for jump, left, right, label, unit, tol_q in ((jump_h, h_l, h_r, "H", "kJ/mol", CONT_H),
+                                                          (jump_s, s_l, s_r, "S", "J/(mol·K)", CONT_S)):
+                if jump[r]:
+                    a, b = float(left[r]), float(right[r])
+                    found.append(Finding(
+                        "cp-continuity", "error",
+                        f"{label} jumps {where}: {num(a)} below, {num(b)} {unit} above (tolerance "
+                        f"{tol_q} {unit}); the integration constants of the two ranges disagree",
+                        species=ident, field="cp_model", observed=b, expected=a, tolerance=tol_q))

@@ -136,11 +136,11 @@ class Canvas:
 
     def dot_x(self, x: float) -> int:
         span = self.x_axis.hi - self.x_axis.lo
-        return int(round((x - self.x_axis.lo) / span * (self.dots_wide - 1)))
+        return round(float((x - self.x_axis.lo) / span * (self.dots_wide - 1)))
 
     def dot_y(self, y: float) -> int:
         span = self.y_axis.hi - self.y_axis.lo
-        return int(round((self.y_axis.hi - y) / span * (self.dots_high - 1)))
+        return round(float((self.y_axis.hi - y) / span * (self.dots_high - 1)))
 
     def col_of(self, x: float) -> int:
         """The cell column where x is drawn."""
@@ -187,7 +187,7 @@ def layout(width: int, height: int, *, curves: Sequence[Curve] = (), marks: Sequ
     plot_cols = width - left
     if plot_cols < 6:
         return None
-    x_axis = nice_axis(*xr, max_ticks=max(1, min(8, plot_cols // 9)))
+    x_axis = nice_axis(*xr, max_ticks=max(1, min(8, plot_cols // 7)))
     chars = [[" "] * width for _ in range(height)]
     kinds = [[""] * width for _ in range(height)]
     canvas = Canvas(width, height, x_axis, y_axis, left, 1, height - 1, chars, kinds)

@@ -67,7 +67,8 @@ class ThermoScreen(SpeciesView):
         with Horizontal(classes="inputs"):
             for name, hint in (("tmin", "298.15"), ("tmax", ""), ("step", "100")):
                 yield Label(f"{name} K", markup=False)
-                yield Input(placeholder=hint, id=name, compact=True, classes="short" if name != "tmax" else "")
+                yield Input(placeholder=hint, id=name, compact=True,
+                            classes="short" if name != "tmax" else "")
         yield Static("", id="view-msg", markup=False)
         table = ReadTable(id="thermo-table")
         table.empty_text = "no table"

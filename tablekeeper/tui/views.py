@@ -11,6 +11,8 @@ from __future__ import annotations
 from typing import ClassVar
 
 from textual.binding import Binding, BindingType
+from textual.content import Content
+from textual.widgets import Checkbox
 
 from ..errors import TablekeeperError
 from ..model import display_name
@@ -19,6 +21,14 @@ from ..thermo import resolve_species
 from .dialogs import TextDialog
 from .vtable import VirtualTable
 from .widgets import TkScreen
+
+
+class MarkCheckbox(Checkbox):
+    """A checkbox whose state is a character, not a colour alone: ``[x]`` on, ``[ ]`` off (NO_COLOR)."""
+
+    @property
+    def _button(self) -> Content:
+        return Content.styled("[x]" if self.value else "[ ]", "bold")
 
 
 class ReadTable(VirtualTable):
