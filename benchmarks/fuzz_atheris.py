@@ -20,7 +20,7 @@ from pathlib import Path
 
 import atheris
 
-with atheris.instrument_imports(include=["tablekeeper", "molmass"]):
+with atheris.instrument_imports(include=["tablekeeper", "molmass", "pint"]):
     from tablekeeper import formula, jsonio, units
     from tablekeeper.errors import DamagedFileError, FormulaError, InputError, UnitError
     from tablekeeper.importers import plan_import

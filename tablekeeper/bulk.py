@@ -42,7 +42,7 @@ def paused_gc() -> Iterator[None]:
 # -- a second process ------------------------------------------------------------------------------------
 
 #: Fewer items than this are not worth a process (a fork and a pipe cost tens of milliseconds).
-SPLIT_MIN_ITEMS = 20_000
+SPLIT_MIN_ITEMS = 5_000
 #: Off: every split_map runs in this process (tests compare both ways).
 SPLIT = True
 

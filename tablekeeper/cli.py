@@ -94,7 +94,8 @@ def cmd_flag(args: argparse.Namespace) -> int:
     from .store import Dataset
 
     rec = raise_flag(Dataset(args.dataset), args.species, args.field, args.note, blocking=args.blocking)
-    _out(f"raised {'blocking ' if rec['blocking'] else ''}flag {rec['id']} on {rec['species']} {rec['field']}")
+    kind = "blocking flag" if rec["blocking"] else "flag"
+    _out(f"raised {kind} {rec['id']} on {rec['species']} {rec['field']}")
     return Exit.OK
 
 

@@ -13,11 +13,10 @@ Exit codes (DESIGN.md section 6):
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from .cli import Exit, _out
-from .text import printable
+from .text import json_text, printable
 
 _RELEASE_HELP = """\
 Check the dataset and publish a versioned bundle: the folder <name>-<version>/ (datapackage.json,
@@ -98,7 +97,7 @@ def cmd_diff(args: argparse.Namespace) -> int:
 
     d = diff(args.old, args.new)
     if args.format == "json":
-        _out(json.dumps(d.to_json(), ensure_ascii=False, indent=2))
+        _out(json_text(d.to_json()))
     else:
         _out("\n".join(printable(line) for line in d.text().split("\n")))
     return Exit.OK

@@ -9,11 +9,10 @@ and where ΔrG° changes sign. All numbers come from the core; this module only 
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 
 from .cli import Exit, _out
-from .text import printable
+from .text import json_text, printable
 
 
 def _species_record(ds, term: str) -> dict:
@@ -88,7 +87,7 @@ def cmd_reaction(args: argparse.Namespace) -> int:
     reaction = parse_equation(args.equation, report.records)
     res = reaction_properties(reaction, report.records, args.temperature)
     if args.format == "json":
-        _out(json.dumps(res.to_json(), ensure_ascii=False, indent=2))
+        _out(json_text(res.to_json()))
     else:
         _out(format_reaction(res))
     return Exit.OK

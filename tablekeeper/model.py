@@ -113,12 +113,17 @@ def _num(v: object) -> float:
     return float(v) if isinstance(v, int | float) and not isinstance(v, bool) else np.nan
 
 
-def _std_u(u: object, k: object) -> float:
-    """Standard uncertainty U/k; ``k`` as stored (absent, zero or null mean 1), NaN when unusable."""
-    k = k or 1.0
+def _property_columns(pv: object) -> tuple:
+    """(value, standard uncertainty, source, method, entered unit) of one property object."""
+    if not isinstance(pv, dict):
+        return (np.nan, np.nan, None, None, None)
+    u = pv.get("uncertainty")
+    k = pv.get("coverage", 1.0) or 1.0
     ok = (isinstance(u, int | float) and not isinstance(u, bool) and isinstance(k, int | float)
           and not isinstance(k, bool) and k > 0)
-    return float(u) / float(k) if ok else np.nan
+    ent = pv.get("entered")
+    return (_num(pv.get("value")), float(u) / float(k) if ok else np.nan, pv.get("source"), pv.get("method"),
+            ent.get("unit") if isinstance(ent, dict) else None)
 
 
 def _formula_columns(text: object) -> tuple:
@@ -130,7 +135,6 @@ def _formula_columns(text: object) -> tuple:
         return (None, np.nan, np.nan, np.nan, str(getattr(exc, "reason", exc)))
 
 
-_EMPTY: dict = {}
 _NUMERIC_COLUMNS = ("charge", "atoms", "molar_mass", "formula_charge", *FIELDS, *(f"u_{f}" for f in FIELDS))
 
 
@@ -138,46 +142,52 @@ def species_frame(records: Mapping[str, Mapping]) -> pd.DataFrame:
     """One row per species, indexed by id. Numbers are float64 (NaN where missing); uncertainties are
     standard uncertainties (U/k). Formula-derived columns come from the formula parser (cached).
 
-    Built column by column with one comprehension per column (a row at a time costs several function
-    calls per value, which at 100k species is seconds); tests/checks/test_fast_paths.py holds the
-    row-at-a-time definition and compares the two on hostile records.
+    Row by row (each record is touched once, while it is in the processor's cache), with the common
+    shape of a property (numbers as floats, no coverage factor, no entered value) read inline and every
+    other shape through ``_property_columns``; the columns are then formed by one transpose.
+    tests/checks/test_fast_paths.py compares the result with a plain definition on hostile records.
     """
     ids = sorted(records)
+    if not ids:
+        return _typed(pd.DataFrame(columns=FRAME_COLUMNS), ids)
+    parsed: dict = {}
+    rows = []
     with paused_gc():
-        recs = [records[i] for i in ids]
-        cols: dict[str, list] = {"id": ids}
-        for c in ("name", "formula", "phase", "form", "status"):
-            cols[c] = [r.get(c) for r in recs]
-        cols["charge"] = [c if type(c) is int else (c if isinstance(c, int) and not isinstance(c, bool)
-                                                     else np.nan)
-                          for c in (r.get("charge") for r in recs)]
-        cols["reference_state"] = [r.get("reference_state") is True for r in recs]
-        cols["cp_kind"] = [_get(r.get("cp_model"), "kind") for r in recs]
-        parsed: dict = {}
-        formula_rows = []
-        for text in cols["formula"]:
+        for ident in ids:
+            rec = records[ident]
+            text = rec.get("formula")
             try:
-                row = parsed.get(text)
-                if row is None:
-                    row = parsed[text] = _formula_columns(text)
-            except TypeError:  # an unhashable "formula" (a list): the parser's error, uncached
-                row = _formula_columns(text)
-            formula_rows.append(row)
-        for j, c in enumerate(("hill", "atoms", "molar_mass", "formula_charge", "formula_error")):
-            cols[c] = [row[j] for row in formula_rows]
-        props = [p if isinstance(p, dict) else _EMPTY for p in (r.get("properties") for r in recs)]
-        for fld in FIELDS:
-            pvs = [p.get(fld) for p in props]
-            pvs = [pv if isinstance(pv, dict) else _EMPTY for pv in pvs]
-            cols[fld] = [v if type(v) is float else _num(v) for v in (pv.get("value") for pv in pvs)]
-            cols[f"u_{fld}"] = [_std_u(pv.get("uncertainty"), pv.get("coverage", 1.0)) for pv in pvs]
-            cols[f"src_{fld}"] = [pv.get("source") for pv in pvs]
-            cols[f"method_{fld}"] = [pv.get("method") for pv in pvs]
-            cols[f"entered_unit_{fld}"] = [e.get("unit") if isinstance(e, dict) else None
-                                           for e in (pv.get("entered") for pv in pvs)]
-        frame = pd.DataFrame(cols, columns=FRAME_COLUMNS)
-        for c in _NUMERIC_COLUMNS:
-            frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
-        frame["reference_state"] = frame["reference_state"].astype(bool)
-        frame.index = pd.Index(ids, name="species")
+                fcols = parsed.get(text)
+                if fcols is None:
+                    fcols = parsed[text] = _formula_columns(text)
+            except TypeError:  # an unhashable "formula" (a list): the parser's error, not cached
+                fcols = _formula_columns(text)
+            ch = rec.get("charge")
+            model = rec.get("cp_model")
+            row = [ident, rec.get("name"), text, rec.get("phase"), rec.get("form"),
+                   ch if type(ch) is int or (isinstance(ch, int) and not isinstance(ch, bool)) else np.nan,
+                   rec.get("reference_state") is True, rec.get("status"),
+                   model.get("kind") if isinstance(model, dict) else None, *fcols]
+            props = rec.get("properties")
+            if not isinstance(props, dict):
+                props = {}
+            for fld in FIELDS:
+                pv = props.get(fld)
+                if type(pv) is dict and "entered" not in pv:
+                    v, u = pv.get("value"), pv.get("uncertainty")
+                    if type(v) is float and type(u) is float:  # u / 1.0 is u
+                        row += (v, u, pv.get("source"), pv.get("method"), None)
+                        continue
+                row += _property_columns(pv)
+            rows.append(row)
+        columns = zip(*rows, strict=True)  # every row has one value per column
+        frame = pd.DataFrame(dict(zip(FRAME_COLUMNS, columns, strict=True)), columns=FRAME_COLUMNS)
+    return _typed(frame, ids)
+
+
+def _typed(frame: pd.DataFrame, ids: list[str]) -> pd.DataFrame:
+    for c in _NUMERIC_COLUMNS:
+        frame[c] = pd.to_numeric(frame[c], errors="coerce").astype("float64")
+    frame["reference_state"] = frame["reference_state"].astype(bool)
+    frame.index = pd.Index(ids, name="species")
     return frame

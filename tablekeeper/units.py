@@ -71,6 +71,15 @@ def normalise(text: str) -> str:
     return s
 
 
+_POWER = re.compile(r"(?:\*\*|\^)\s*\(?\s*[-+]?(\d+)")
+_CHAINED_POWER = re.compile(r"(?:\*\*|\^)[^*/]*(?:\*\*|\^)")
+
+
+def _bounded_powers(text: str) -> bool:
+    """True when every power in a unit string has at most two digits and none is raised again."""
+    return all(len(m.group(1)) <= 2 for m in _POWER.finditer(text)) and not _CHAINED_POWER.search(text)
+
+
 @functools.lru_cache(maxsize=512)
 def factor_to_canonical(unit: str, field: str) -> float:
     """Multiplicative factor that converts a value in ``unit`` into the field's canonical unit.
@@ -84,8 +93,12 @@ def factor_to_canonical(unit: str, field: str) -> float:
         raise UnitError(f"{field!r} is not a field with a unit", field=field)
     if not unit or not unit.strip():
         raise UnitError("a unit is required", field=field)
+    text = normalise(unit)
+    if len(unit) > 100 or not _bounded_powers(text):
+        # pint evaluates number powers exactly: "9^999999999" would compute for hours.
+        raise UnitError(f"{unit[:40]!r} is too long or has a power too large for a unit", field=field)
     try:
-        q = ureg.Quantity(1, normalise(unit))
+        q = ureg.Quantity(1, text)
         dim = q.dimensionality  # logarithmic units (Np, dB) have none: AttributeError
     except Exception as exc:  # pint raises several unrelated types on bad syntax
         raise UnitError(f"{unit!r} is not a unit tablekeeper understands ({type(exc).__name__})",

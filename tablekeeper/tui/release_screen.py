@@ -461,6 +461,9 @@ class ReleaseScreen(TkScreen):
         self._rebuild()
         if message.done is not None:
             self._version_typed = False
+            inp = self.query_one("#version", Input)
+            with inp.prevent(Input.Changed):
+                inp.value = ""  # that version is taken now; the next preview suggests the one after
             self.tk.reload()
             self.run_preview()  # the new release is now the last one
         else:

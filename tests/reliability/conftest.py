@@ -1,4 +1,8 @@
-"""Fixtures of the reliability tests: the child-process script and small dataset builders."""
+"""Fixtures of the reliability tests: the child-process script and small dataset builders.
+
+Long variants carry ``@pytest.mark.slow``; they run only when ``TK_SLOW=1`` is set (or when selected
+with ``-m slow``), so that the default run stays within a few minutes on two cores.
+"""
 
 from __future__ import annotations
 
@@ -60,3 +64,12 @@ import clean_data  # noqa: E402  (a plain module beside this file, shared with t
 def clean_dataset(tmp_path: Path):
     """A dataset of CODATA key species that passes every check."""
     return clean_data.build(tmp_path / "clean")
+
+
+def pytest_collection_modifyitems(config: pytest.Config, items: list[pytest.Item]) -> None:
+    if os.environ.get("TK_SLOW") == "1" or "slow" in (config.getoption("-m") or ""):
+        return
+    later = pytest.mark.skip(reason="long variant: set TK_SLOW=1 or select -m slow to run it")
+    for item in items:
+        if "slow" in item.keywords and str(item.fspath).startswith(str(Path(__file__).parent)):
+            item.add_marker(later)

@@ -20,9 +20,11 @@ ATTEMPTS = 150
 TARGET = "shared-counter"
 
 
-def _round(root: Path, child, safety: str, tag: str) -> list[dict]:
+def _round(
+    root: Path, child, safety: str, tag: str, writers: int = WRITERS, attempts: int = ATTEMPTS
+) -> list[dict]:
     go = root.parent / f"go-{tag}"
-    procs = [child("counter", root, TARGET, ATTEMPTS, go, safety=safety) for _ in range(WRITERS)]
+    procs = [child("counter", root, TARGET, attempts, go, safety=safety) for _ in range(writers)]
     go.touch()
     results = []
     for p in procs:
@@ -48,25 +50,30 @@ def _setup(tmp_path: Path, make_species) -> Path:
     return ds.root
 
 
-@pytest.mark.timeout(240)
-def test_concurrent_writers_lose_no_accepted_save(tmp_path, child, make_species, leftovers):
+@pytest.mark.timeout(900)
+@pytest.mark.parametrize(
+    ("writers", "attempts"), [(WRITERS, ATTEMPTS), pytest.param(16, 600, marks=pytest.mark.slow)]
+)
+def test_concurrent_writers_lose_no_accepted_save(
+    tmp_path, child, make_species, leftovers, writers, attempts
+):
     root = _setup(tmp_path, make_species)
     accepted_total = 0
     for rnd in (1, 2):
-        results = _round(root, child, "", f"r{rnd}")
+        results = _round(root, child, "", f"r{rnd}", writers, attempts)
         accepted = sum(r["accepted"] for r in results)
         conflicts = sum(r["conflicts"] for r in results)
         others = [o for r in results for o in r["others"]]
         accepted_total += accepted
         counter, revision, journal_updates = _state(root)
         print(
-            f"round {rnd}: {accepted} accepted + {conflicts} conflicts of {WRITERS * ATTEMPTS} attempts; "
+            f"round {rnd}: {accepted} accepted + {conflicts} conflicts of {writers * attempts} attempts; "
             f"counter {counter}, revision {revision}, journal {journal_updates} updates "
             f"(cumulative accepted {accepted_total})"
         )
         assert not others, f"refusals that were not ConflictError: {others[:5]}"
-        assert accepted + conflicts == WRITERS * ATTEMPTS, (
-            f"{accepted} accepted + {conflicts} conflicts != {WRITERS * ATTEMPTS} attempts"
+        assert accepted + conflicts == writers * attempts, (
+            f"{accepted} accepted + {conflicts} conflicts != {writers * attempts} attempts"
         )
         assert counter == accepted_total, (
             f"counter {counter} != {accepted_total} accepted saves: updates lost"

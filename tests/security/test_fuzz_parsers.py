@@ -56,6 +56,7 @@ def test_formula_parse_returns_or_refuses(text: str) -> None:
 @example("kcal mol-1", "dfH298")
 @example("Np2", "dfG298")  # found by atheris: a logarithmic unit has no dimensionality (AttributeError)
 @example("dB/mol", "dfH298")
+@example("kJ**99/kJ**98/mol", "dfH298")
 def test_unit_factor_returns_a_finite_number_or_refuses(unit: str, field: str) -> None:
     try:
         f = units.factor_to_canonical(unit, field)
@@ -239,3 +240,14 @@ def test_a_logarithmic_unit_on_the_command_line_is_refused_without_traceback(tmp
     with contextlib.redirect_stderr(err), contextlib.redirect_stdout(io.StringIO()):
         rc = cli.main(["import", str(ds.root), str(f), "--unit", "dfH298=Np2"])
     assert rc == 2 and "'Np2' is not a unit tablekeeper understands" in err.getvalue(), err.getvalue()
+
+
+@pytest.mark.timeout(30)
+@pytest.mark.parametrize("unit", ["A1U1A1A9999999911U91AA11A1A9999999^999999991", "9**99**99", "kJ^999999999",
+                                  "(kJ/mol)**(9**99)", "J" * 200])
+def test_a_unit_with_a_huge_power_is_refused_at_once(unit: str) -> None:
+    """Regression (atheris, timeout): pint evaluates ``9999999^999999991`` exactly and ran for hours, so
+    a unit typed into the app or given to ``--unit`` froze the program. The pytest-timeout bound makes
+    a regression fail instead of hang."""
+    with pytest.raises(UnitError, match="power too large|too long"):
+        units.factor_to_canonical(unit, "S298")

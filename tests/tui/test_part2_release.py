@@ -32,7 +32,8 @@ async def test_the_demo_is_refused_for_its_errors_and_its_blocking_flag(demo_cop
         await loaded(pilot)
         # The key opens the screen; its output folder defaults to the command's, the current folder.
         app.action_show("release")
-        await until(pilot, app, lambda: isinstance(app.screen, ReleaseScreen) and app.screen.preview is not None)
+        await until(pilot, app,
+                    lambda: isinstance(app.screen, ReleaseScreen) and app.screen.preview is not None)
         assert app.screen.query_one("#out").value == str(Path.cwd())
         app.pop_screen()
         screen = await _release_screen(pilot, app, out)

@@ -98,8 +98,9 @@ async def test_text_from_data_is_shown_literally(builder, tmp_path) -> None:
                          name=HOSTILE["click"] + HOSTILE["csi"])
     # Shomate coefficients of H2O(g) 500-1700 K, NIST Chemistry WebBook (from memory); the range is
     # widened to 298 K here, as the demo does, which is fine for a display test.
-    rec["cp_model"] = {"kind": "shomate", "ranges": [{"tmin": 298.0, "tmax": 1700.0, "A": 30.092, "B": 6.832514,
-                                                      "C": 6.793435, "D": -2.53448, "E": 0.082139}]}
+    rec["cp_model"] = {"kind": "shomate", "ranges": [{"tmin": 298.0, "tmax": 1700.0, "A": 30.092,
+                                                      "B": 6.832514, "C": 6.793435, "D": -2.53448,
+                                                      "E": 0.082139}]}
     path = builder(tmp_path / "hostile")
     ds = Dataset(path, user="builder")
     ds.save("species", dict(rec, revision=1), expected_revision=1)
