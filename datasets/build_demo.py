@@ -35,7 +35,7 @@ from pathlib import Path
 
 from tablekeeper import formula, validation
 from tablekeeper.store import LOCK_NAME, Dataset
-from tablekeeper.units import canonical_unit, factor_to_canonical
+from tablekeeper.units import canonical_unit, factor_to_canonical, scale
 
 HERE = Path(__file__).resolve().parent
 TARGET = HERE / "kestrel-works"
@@ -174,7 +174,7 @@ def val(value: float, u: float | None, source: str, method: str = "evaluated", *
 def entered(value: float, u: float, unit: str, source: str, field: str, method: str = "evaluated") -> dict:
     """A value typed in another unit: converted by the core's factor, the entry kept as typed."""
     f = factor_to_canonical(unit, field)
-    return {"value": value * f, "unit": canonical_unit(field), "uncertainty": u * f, "source": source,
+    return {"value": scale(value, f), "unit": canonical_unit(field), "uncertainty": scale(u, f), "source": source,
             "method": method, "entered": {"value": value, "unit": unit, "uncertainty": u}}
 
 

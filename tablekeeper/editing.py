@@ -84,12 +84,6 @@ def number_text(value: Any) -> str:
     return str(value)
 
 
-def _clean_float(x: float) -> float:
-    """A converted value without binary noise: 15 significant digits hold every digit of a typed value
-    times an exact factor such as 4.184 (-68.3 kcal/mol is -285.7672, not -285.76720000000006)."""
-    return float(f"{x:.15g}")
-
-
 def field_path(finding_field: str | None) -> str | None:
     """The editor field a finding's field names: ``dfH298`` or a JSON pointer such as
     ``/properties/dfH298/uncertainty``. None when the editor has no such field (cp_model, ...)."""
@@ -231,7 +225,7 @@ def _apply_part(rec: dict, spec: FieldSpec, text: str) -> str | None:
             new["value"] = float(entered)
             props[spec.prop] = new
             return None
-        new["value"] = _clean_float(canonical)
+        new["value"] = canonical
         new["entered"] = {"value": float(entered), "unit": unit}
         props[spec.prop] = new
         shown = f"{number_text(new['value'])} {new['unit']}"
@@ -258,7 +252,7 @@ def _apply_part(rec: dict, spec: FieldSpec, text: str) -> str | None:
         if factor == 1.0:
             new["uncertainty"] = float(entered)
             return None
-        new["uncertainty"] = _clean_float(canonical)
+        new["uncertainty"] = canonical
         if isinstance(new.get("entered"), dict) and new["entered"].get("unit") == unit:
             new["entered"] = dict(new["entered"], uncertainty=float(entered))
         return f"= {number_text(new['uncertainty'])} {new['unit']}"

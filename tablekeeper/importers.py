@@ -21,7 +21,7 @@ from . import validation
 from .errors import InputError, UnitError
 from .model import FIELDS, PHASES, STATUSES
 from .store import SLUG, Dataset, field_changes
-from .units import canonical_unit, factor_to_canonical
+from .units import canonical_unit, factor_to_canonical, scale
 
 TEXT_COLUMNS = ("id", "formula", "phase", "form", "name", "status")
 KNOWN = (*TEXT_COLUMNS, "charge", *FIELDS, *(f"u_{f}" for f in FIELDS))
@@ -208,14 +208,14 @@ def _build(old: dict | None, ident: str, cell, col_for: dict, units: Mapping[str
             factor = factor_to_canonical(unit, f)
         except UnitError as exc:
             raise InputError(exc.reason, file=file, record=where, field=col_for[f]) from None
-        pv: dict = {"value": entered * factor if factor != 1.0 else entered, "unit": canonical_unit(f)}
+        pv: dict = {"value": scale(entered, factor), "unit": canonical_unit(f)}
         u_entered = None
         if utext:
             u_entered = _number(utext, file=file, row=where, column=col_for[f"u_{f}"])
             if u_entered < 0:
                 raise InputError("an uncertainty cannot be negative", file=file, record=where,
                                  field=col_for[f"u_{f}"])
-            pv["uncertainty"] = u_entered * factor if factor != 1.0 else u_entered
+            pv["uncertainty"] = scale(u_entered, factor)
         prev = props.get(f, {})
         src = source or prev.get("source")
         if src:

@@ -173,7 +173,7 @@ def species_frame(records: Mapping[str, Mapping]) -> pd.DataFrame:
                 props = {}
             for fld in FIELDS:
                 pv = props.get(fld)
-                if type(pv) is dict and "entered" not in pv:
+                if type(pv) is dict and "coverage" not in pv and "entered" not in pv:
                     v, u = pv.get("value"), pv.get("uncertainty")
                     if type(v) is float and type(u) is float:  # u / 1.0 is u
                         row += (v, u, pv.get("source"), pv.get("method"), None)

@@ -11,6 +11,7 @@ Conversion is by a multiplicative factor per (unit, field), parsed once and cach
 
 from __future__ import annotations
 
+import decimal
 import functools
 import math
 import re
@@ -116,10 +117,25 @@ def factor_to_canonical(unit: str, field: str) -> float:
     return float(f"{float(f):.15g}")
 
 
+_EXACT = decimal.Context(prec=80)
+
+
+def scale(value: float, factor: float) -> float:
+    """``value × factor`` as the double nearest to the exact decimal product of the two numbers as written.
+
+    A typed value times an exact factor has an exact decimal product (12.49 kcal/mol × 4.184 =
+    52.25816 kJ/mol); binary floating-point multiplication would store 52.258160000000004 instead. Both
+    faces and the importer convert through this one function, so a value converts to the same bits
+    whichever way it was entered.
+    """
+    if factor == 1.0:
+        return value
+    return float(_EXACT.multiply(decimal.Decimal(repr(float(value))), decimal.Decimal(repr(float(factor)))))
+
+
 def to_canonical(value: float, unit: str, field: str) -> float:
     """Convert one value to the field's canonical unit."""
-    f = factor_to_canonical(unit, field)
-    return value if f == 1.0 else value * f
+    return scale(value, factor_to_canonical(unit, field))
 
 
 def canonical_unit(field: str) -> str:

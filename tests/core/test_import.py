@@ -7,6 +7,8 @@ import io
 import struct
 from pathlib import Path
 
+from fractions import Fraction
+
 import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
@@ -48,8 +50,9 @@ def test_import_in_kcal_stores_exactly_value_times_4_184_and_keeps_what_was_ente
     ds = Dataset(dataset.root)
     for ident, kcal in entered.items():
         pv = ds.load("species", ident)["properties"]["dfH298"]
-        assert _bits(pv["value"]) == _bits(kcal * KCAL_TO_KJ)
-        assert _bits(pv["uncertainty"]) == _bits(uncertainty[ident] * KCAL_TO_KJ)
+        # The exact decimal product, rounded once to a double (Fraction is exact).
+        assert _bits(pv["value"]) == _bits(float(Fraction(repr(kcal)) * Fraction(repr(KCAL_TO_KJ))))
+        assert _bits(pv["uncertainty"]) == _bits(float(Fraction(repr(uncertainty[ident])) * Fraction("4.184")))
         assert pv["unit"] == "kJ/mol"
         assert pv["entered"] == {"value": kcal, "unit": "kcal/mol", "uncertainty": uncertainty[ident]}
         assert pv["source"] == "codata-1989"

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from fractions import Fraction
+
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -33,9 +35,18 @@ def test_kcal_per_mol_converts_by_exactly_4_184() -> None:
 @given(st.floats(-1e6, 1e6, allow_nan=False))
 @settings(max_examples=100, deadline=None)
 def test_a_kcal_value_is_stored_as_value_times_4_184_bit_for_bit(x: float) -> None:
-    assert units.to_canonical(x, "kcal/mol", "dfH298") == x * 4.184
+    # The exact decimal product of the number as written and 4.184, rounded once to a double
+    # (fractions.Fraction is exact; its float() rounds correctly).
+    exact = float(Fraction(repr(x)) * Fraction("4.184"))
+    assert units.to_canonical(x, "kcal/mol", "dfH298") == exact
     value, unit, entered = units.parse_quantity(f"{x!r} kcal/mol", "dfH298")
-    assert (value, unit, entered) == (x * 4.184, "kcal/mol", x)
+    assert (value, unit, entered) == (exact, "kcal/mol", x)
+
+
+def test_a_typed_kcal_value_converts_without_binary_noise() -> None:
+    # 12.49 × 4.184 = 52.25816 exactly; a binary product would store 52.258160000000004.
+    assert repr(units.to_canonical(12.49, "kcal/mol", "dfH298")) == "52.25816"
+    assert repr(units.to_canonical(-68.3, "kcal/mol", "dfH298")) == "-285.7672"
 
 
 @pytest.mark.parametrize("spelling", ["kJ/mol", "kJ mol-1", "kJ mol^-1", "kJ·mol⁻¹", "kJ mol−1", "kJ*mol**-1",
@@ -104,7 +115,7 @@ def test_a_field_without_a_unit_is_refused() -> None:
 
 @pytest.mark.parametrize(("text", "expected"), [
     ("-285.83", (-285.83, "kJ/mol", -285.83)),
-    ("-68.315 kcal/mol", (-68.315 * 4.184, "kcal/mol", -68.315)),
+    ("-68.315 kcal/mol", (-285.82996, "kcal/mol", -68.315)),
     ("  −1.5e2 kJ mol-1 ", (-150.0, "kJ mol-1", -150.0)),
     ("+0.5 eV", (0.5 * units.factor_to_canonical("eV", "dfH298"), "eV", 0.5)),
     (".5", (0.5, "kJ/mol", 0.5)),
