@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import copy
 import math
+import re
 from collections.abc import Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import Any
@@ -100,8 +101,21 @@ def field_path(finding_field: str | None) -> str | None:
     return parts[0] if parts[0] in SCALAR_FIELDS else None
 
 
+def editor_path(finding_field: str | None) -> str | None:
+    """The editor field a finding's (or a flag's) field belongs to: as ``field_path``, and the Cp(T)
+    model (``cp_model``) for a field inside it."""
+    path = field_path(finding_field)
+    if path is None and finding_field:
+        head = finding_field.strip("/").split("/")[0].split(".")[0]
+        if head == "cp_model":
+            return head
+    return path
+
+
 def field_text(record: Mapping, path: str) -> str:
     """The text an editor shows for a field of a record."""
+    if is_cp_path(path):
+        return cp_field_text(record, path)
     spec = SPEC_BY_PATH.get(path)
     if spec is None:
         raise InputError(f"{path!r} is not an editable field", record=record.get("id"), field=path)
@@ -311,9 +325,21 @@ def build(original: Mapping, texts: Mapping[str, str], *, sources: Iterable[str]
             path = f"properties.{prop}.source"
             if src and src not in known and path not in result.problems:
                 result.notes[path] = f"no source named {src!r} yet: add it on the sources screen"
+    cp_texts = {p: t for p, t in texts.items() if is_cp_path(p)}
+    if cp_texts:
+        _apply_cp_texts(rec, cp_texts, result)
     if not result.problems:
         for pointer, msg in validation.errors("species", rec):
             result.problems.setdefault(pointer_path(pointer), msg)
+    if cp_texts and not result.problems and isinstance(rec.get("cp_model"), dict):
+        # The schema checks shapes; the engine checks what it needs to compute (ordered ranges,
+        # increasing points): an edited model must pass both before it can be saved.
+        from .thermo import model_from_json
+
+        try:
+            model_from_json(rec["cp_model"])
+        except InputError as exc:
+            result.problems[CP_MODEL] = exc.reason
     return result
 
 
@@ -341,12 +367,16 @@ class RecordEdit:
         return self.texts.get(path, field_text(self.original, path))
 
     def set_text(self, path: str, text: str) -> None:
-        if path not in SPEC_BY_PATH:
+        if path not in SPEC_BY_PATH and not is_cp_path(path):
             raise InputError(f"{path!r} is not an editable field", record=self.ident, field=path)
         if text == field_text(self.original, path):
             self.texts.pop(path, None)
         else:
             self.texts[path] = text
+        if path == CP_MODEL and path in self.texts and not text.strip():
+            # Removing the model: typed coefficients of the model go with it.
+            for other in [p for p in self.texts if p.startswith(CP_MODEL + ".")]:
+                del self.texts[other]
 
     def undo_field(self, path: str) -> None:
         self.texts.pop(path, None)
@@ -356,8 +386,10 @@ class RecordEdit:
 
     @property
     def dirty(self) -> list[str]:
-        """Paths with a typed change, in editor order."""
-        return [s.path for s in EDIT_FIELDS if s.path in self.texts]
+        """Paths with a typed change, in editor order (the Cp(T) model's parts last)."""
+        order = {f.path: i for i, f in enumerate(cp_fields(self.original))}
+        return [s.path for s in EDIT_FIELDS if s.path in self.texts] + \
+            sorted((p for p in self.texts if is_cp_path(p)), key=lambda p: (order.get(p, len(order)), p))
 
     def result(self) -> EditResult:
         return build(self.original, self.texts, sources=self.sources)
@@ -617,3 +649,493 @@ def save_source(dataset: Dataset, original: Mapping | None, texts: Mapping[str, 
     expected = None if original is None else int(original.get("revision", 0))
     why = reason or (f"source {ident} added" if original is None else f"source {ident} edited")
     return dataset.save("sources", result.record, expected_revision=expected, reason=why)
+
+
+# -- the Cp(T) model -----------------------------------------------------------------------------------
+# A record's model is edited part by part through the same texts as the other fields, under paths that
+# mirror its JSON (``cp_model.ranges.1.a.0`` is a1 of the second range): one number per text, so a
+# steward corrects one coefficient or one range bound and the rest of the model stays exactly as stored.
+# The path ``cp_model`` itself stands for the whole model: its text is a summary, and emptying it
+# removes the model.
+
+#: The editor path of the whole model.
+CP_MODEL = "cp_model"
+_SHOMATE_COEFFS = ("A", "B", "C", "D", "E", "F", "G", "H")
+_SHOMATE_OPTIONAL = ("F", "G", "H")  # the integration constants, optional in the schema
+_CP_PATH = re.compile(r"^cp_model(?:\.source|\.ranges\.\d{1,4}\.(?:tmin|tmax|[A-H]|a\.[0-6])"
+                      r"|\.points\.\d{1,5}\.[01])?\Z")
+
+
+def is_cp_path(path: str) -> bool:
+    """Whether an editor path names the Cp(T) model or one of its parts."""
+    return bool(_CP_PATH.match(path))
+
+
+@dataclass(frozen=True)
+class CpField:
+    """One editable part of a Cp(T) model: its path, its label, its unit ('' for a plain number)."""
+
+    path: str
+    label: str
+    unit: str = ""
+
+
+def cp_fields(record: Mapping) -> list[CpField]:
+    """The editable parts of a record's model in the order an editor shows them: the model, its source,
+    then each range's bounds and coefficients (NASA a1..a7 of Cp/R; Shomate A..E and the constants F, G,
+    H) or each tabulated (T, Cp) point. Empty when the record has no model."""
+    model = record.get(CP_MODEL)
+    if not isinstance(model, Mapping):
+        return []
+    out = [CpField(CP_MODEL, "model"), CpField(f"{CP_MODEL}.source", "model source")]
+    kind = model.get("kind")
+    if kind == "tabulated":
+        points = model.get("points")
+        for i in range(len(points) if isinstance(points, list) else 0):
+            out.append(CpField(f"{CP_MODEL}.points.{i}.0", f"point {i + 1} T", "K"))
+            out.append(CpField(f"{CP_MODEL}.points.{i}.1", f"point {i + 1} Cp", "J/(mol*K)"))
+        return out
+    ranges = model.get("ranges")
+    for i in range(len(ranges) if isinstance(ranges, list) else 0):
+        base = f"{CP_MODEL}.ranges.{i}"
+        out += [CpField(f"{base}.tmin", f"range {i + 1} tmin", "K"),
+                CpField(f"{base}.tmax", f"range {i + 1} tmax", "K")]
+        if kind == "nasa7":
+            out += [CpField(f"{base}.a.{j}", f"range {i + 1} a{j + 1}") for j in range(7)]
+        elif kind == "shomate":
+            out += [CpField(f"{base}.{k}", f"range {i + 1} {k}") for k in _SHOMATE_COEFFS]
+    return out
+
+
+def cp_summary(model: Any) -> str:
+    """A model in a few words: kind and number of ranges or points."""
+    if not isinstance(model, Mapping):
+        return ""
+    kind = str(model.get("kind", "?"))
+    if kind == "tabulated":
+        n = len(model.get("points") or [])
+        return f"tabulated, {n} point{'s' if n != 1 else ''}"
+    n = len(model.get("ranges") or [])
+    return f"{kind}, {n} range{'s' if n != 1 else ''}"
+
+
+def cp_span(model: Any) -> str:
+    """A model's validity range as stored (first tmin to last tmax, or first to last point), '' if none."""
+    if not isinstance(model, Mapping):
+        return ""
+    try:
+        if model.get("kind") == "tabulated":
+            pts = model.get("points") or []
+            return f"{number_text(pts[0][0])}–{number_text(pts[-1][0])} K" if pts else ""
+        ranges = model.get("ranges") or []
+        return f"{number_text(ranges[0].get('tmin'))}–{number_text(ranges[-1].get('tmax'))} K" if ranges else ""
+    except (AttributeError, IndexError, KeyError, TypeError):
+        return ""
+
+
+def _cp_parts(path: str) -> list[str]:
+    return path.split(".")[1:]
+
+
+def _cp_get(model: Any, path: str) -> Any:
+    obj = model
+    for part in _cp_parts(path):
+        obj = obj[int(part)] if isinstance(obj, list) else obj[part]
+    return obj
+
+
+def cp_field_text(record: Mapping, path: str) -> str:
+    """The text an editor shows for the model (its summary) or one of its parts ('' when absent)."""
+    model = record.get(CP_MODEL)
+    if path == CP_MODEL:
+        return cp_summary(model)
+    try:
+        value = _cp_get(model, path)
+    except (KeyError, IndexError, TypeError, ValueError):
+        return ""
+    if value is None:
+        return ""
+    return number_text(value) if isinstance(value, int | float) else str(value)
+
+
+def _apply_cp(rec: dict, path: str, text: str) -> str | None:
+    """Set one part of the record's model from its text (or remove the model); return a note or None.
+    Raises ValueError with a reason."""
+    t = text.strip()
+    model = rec.get(CP_MODEL)
+    if path == CP_MODEL:
+        if not t:
+            if model is None:
+                return None
+            del rec[CP_MODEL]
+            return "the whole Cp(T) model will be removed when you save (ctrl+z keeps it)"
+        if t == cp_summary(model):
+            return None
+        raise ValueError("this line only removes the model (empty it, or ctrl+d); edit the ranges, "
+                         "coefficients and points on their own lines")
+    if not isinstance(model, dict):
+        raise ValueError("the record has no Cp(T) model (any more)")
+    parts = _cp_parts(path)
+    if parts == ["source"]:
+        if not t:
+            model.pop("source", None)
+            return None
+        if not SLUG.match(t):
+            raise ValueError(f"{t[:40]!r} is not a source id: use a-z, 0-9, '.', '_', '-'")
+        model["source"] = t
+        return None
+    try:
+        container: Any = model
+        for part in parts[:-1]:
+            container = container[int(part)] if isinstance(container, list) else container[part]
+        last = parts[-1]
+        if isinstance(container, list):
+            if not 0 <= int(last) < len(container):
+                raise IndexError(last)
+        elif not isinstance(container, dict):
+            raise TypeError(last)
+    except (KeyError, IndexError, TypeError, ValueError):
+        raise ValueError("the model has no such part (its shape changed?)") from None
+    if not t:
+        if isinstance(container, dict) and last in _SHOMATE_OPTIONAL and model.get("kind") == "shomate":
+            container.pop(last, None)
+            return f"the constant {last} will be removed"
+        raise ValueError("a number is needed here")
+    value: float | int = _parse_number(t)
+    old = container[int(last)] if isinstance(container, list) else container.get(last)
+    if isinstance(old, int) and not isinstance(old, bool) and float(value).is_integer():
+        value = int(value)  # a bound stored as 1000 stays 1000 when retyped, not 1000.0
+    if isinstance(container, list):
+        container[int(last)] = value
+    else:
+        container[last] = value
+    return None
+
+
+def _apply_cp_texts(rec: dict, texts: Mapping[str, str], result: EditResult) -> None:
+    """Apply the model texts of an editor in a fixed order: the removal first, then the parts."""
+    removing = CP_MODEL in texts and not texts[CP_MODEL].strip()
+    for path in sorted(texts, key=lambda p: (p != CP_MODEL, p)):
+        if removing and path != CP_MODEL:
+            result.problems[path] = "the model is being removed: ctrl+z on the model line keeps it"
+            continue
+        try:
+            note = _apply_cp(rec, path, texts[path])
+        except ValueError as exc:
+            result.problems[path] = str(exc)
+            continue
+        if note:
+            result.notes[path] = note
+
+
+def apply_cp_edit(record: Mapping, path: str, text: str) -> dict:
+    """The record with one part of its Cp(T) model set from ``text`` (a coefficient, a range bound, a
+    point or the model's source; for ``cp_model`` itself, an empty text removes the model). The result is
+    checked against the species schema and by ``tablekeeper.thermo.model_from_json``; InputError names
+    the record and the field."""
+    ident = record.get("id")
+    if not is_cp_path(path):
+        raise InputError(f"{path!r} is not a part of a Cp(T) model", record=ident, field=path)
+    result = build(record, {path: text})
+    if not result.ok:
+        where, reason = next(iter(result.problems.items()))
+        raise InputError(reason, record=ident, field=where)
+    return result.record
+
+
+def remove_cp_model(record: Mapping) -> dict:
+    """The record without its Cp(T) model; InputError when it has none."""
+    if not isinstance(record.get(CP_MODEL), Mapping):
+        raise InputError("the record has no Cp(T) model to remove", record=record.get("id"), field=CP_MODEL)
+    return apply_cp_edit(record, CP_MODEL, "")
+
+
+@dataclass(frozen=True)
+class BreakValues:
+    """Cp, H and S at a break between two ranges, from each range's own coefficients (H in kJ/mol, Cp
+    and S in J/(mol·K); H and S None where a range carries no integration constants)."""
+
+    T: float
+    below: int  # index of the range below the break
+    cp_below: float
+    cp_above: float
+    h_below: float | None = None
+    h_above: float | None = None
+    s_below: float | None = None
+    s_above: float | None = None
+
+
+def cp_breaks(model: Mapping) -> list[BreakValues]:
+    """The values on both sides of every break of a model (``tablekeeper.thermo``'s ``segment_values``);
+    InputError when the model is malformed. A tabulated model has no breaks."""
+    from .thermo import model_from_json
+
+    m = model_from_json(dict(model))
+
+    def f(x: Any) -> float | None:
+        return None if x is None else float(x)
+
+    out = []
+    for i, tb in enumerate(m.breaks):
+        left, right = m.segment_values(i, tb), m.segment_values(i + 1, tb)
+        out.append(BreakValues(float(tb), i, float(left[0]), float(right[0]), f(left[1]), f(right[1]),
+                               f(left[2]), f(right[2])))
+    return out
+
+
+def cp_findings(record: Mapping, meta: Mapping | None = None) -> list:
+    """The findings the cp-model and cp-continuity checks give for one (would-be) record: the same
+    checks as ``tablekeeper check``, run on this record alone."""
+    from .checks import Context, run
+
+    ctx = Context.from_records(dict(meta or {}), {str(record.get("id")): dict(record)})
+    return run(ctx, only=["cp-model", "cp-continuity"]).findings
+
+
+def _open_leaves(obj: Any, prefix: str = "") -> dict[str, Any]:
+    """Dotted paths to leaves, lists opened too (``cp_model.ranges.1.a.0``)."""
+    if isinstance(obj, dict):
+        out: dict[str, Any] = {}
+        for k, v in obj.items():
+            out.update(_open_leaves(v, f"{prefix}.{k}" if prefix else k))
+        return out
+    if isinstance(obj, list) and prefix.startswith(CP_MODEL):
+        out = {}
+        for i, v in enumerate(obj):
+            out.update(_open_leaves(v, f"{prefix}.{i}"))
+        return out
+    return {prefix: obj}
+
+
+def detailed_changes(old: Mapping, new: Mapping) -> list[FieldChange]:
+    """What an edit changes, for a person to read: as ``diff``, but a Cp(T) model's changed coefficients,
+    bounds and points are named one by one (``cp_model range 2 a1``), and a removed or added model is one
+    line. The journal keeps the store's own field-level record."""
+    old_m, new_m = old.get(CP_MODEL), new.get(CP_MODEL)
+    plain = [c for c in diff(old, new) if not is_cp_path(c.field.split(".")[0])]
+    if isinstance(old_m, Mapping) != isinstance(new_m, Mapping):
+        return [*plain, FieldChange(CP_MODEL, cp_summary(old_m) or None, cp_summary(new_m) or None,
+                                    isinstance(old_m, Mapping), isinstance(new_m, Mapping))]
+    if not isinstance(old_m, Mapping):
+        return plain
+    fields = cp_fields(old) + cp_fields(new)
+    labels = {f.path: f.label for f in fields}
+    order = {f.path: i for i, f in reversed(list(enumerate(fields)))}
+    a, b = _open_leaves({CP_MODEL: old_m}), _open_leaves({CP_MODEL: new_m})
+    out = []
+    for key in sorted(set(a) | set(b), key=lambda k: (order.get(k, len(order)), k)):
+        va, vb = a.get(key, _ABSENT), b.get(key, _ABSENT)
+        if va is _ABSENT or vb is _ABSENT or va != vb or type(va) is not type(vb):
+            name = f"{CP_MODEL} {labels[key]}" if key in labels else key
+            out.append(FieldChange(name, None if va is _ABSENT else va, None if vb is _ABSENT else vb,
+                                   va is not _ABSENT, vb is not _ABSENT))
+    return plain + out
+
+
+# -- measured reactions --------------------------------------------------------------------------------
+# A reaction record (reactions/<id>.json) is edited as texts by field name, like a source: the equation,
+# the temperature, each measured quantity's value and standard uncertainty, the source and the notes.
+# The would-be record is checked against the reaction schema and its equation is parsed and balanced
+# against the species the user sees (tablekeeper.thermo.parse_equation, balance).
+
+#: Fields of a reaction an editor offers, in order.
+REACTION_FIELDS: tuple[str, ...] = ("id", "equation", "temperature_K", "drH.value", "drH.uncertainty",
+                                    "drG.value", "drG.uncertainty", "logK.value", "logK.uncertainty",
+                                    "source", "notes")
+#: The measured quantities: record key -> (label, canonical unit, the species field whose units apply).
+REACTION_QUANTITIES: dict[str, tuple[str, str, str | None]] = {
+    "drH": ("ΔrH°", "kJ/mol", "dfH298"),
+    "drG": ("ΔrG°", "kJ/mol", "dfG298"),
+    "logK": ("log10 K", "", None),
+}
+
+
+def reaction_text(record: Mapping | None, name: str) -> str:
+    """The text an editor shows for a field of a reaction ('' when absent)."""
+    rec = record or {}
+    if "." in name:
+        key, part = name.split(".", 1)
+        obj = rec.get(key)
+        v = obj.get(part) if isinstance(obj, Mapping) else None
+    else:
+        v = rec.get(name)
+    if v is None:
+        return ""
+    return number_text(v) if isinstance(v, int | float) and not isinstance(v, bool) else str(v)
+
+
+def _reaction_number(text: str, key: str) -> tuple[float, str | None]:
+    """A measured value or uncertainty from its text: (canonical value, note of a conversion or None).
+    ΔrH° and ΔrG° may be typed with an energy unit (kcal/mol); log10 K is a plain number."""
+    unit_field = REACTION_QUANTITIES[key][2]
+    if unit_field is None:
+        return _parse_number(text), None
+    try:
+        canonical, unit, entered = parse_quantity(text.strip(), unit_field)
+        factor = factor_to_canonical(unit, unit_field)
+    except UnitError as exc:
+        raise ValueError(exc.reason) from None
+    if factor == 1.0:
+        return float(entered), None
+    value = float(f"{canonical:.15g}")  # 15 digits: no binary noise from the factor 4.184
+    return value, f"= {number_text(value)} kJ/mol (typed {number_text(float(entered))} {unit})"
+
+
+def _apply_reaction_part(rec: dict, name: str, text: str, original: Mapping | None) -> str | None:
+    t = text.strip()
+    if name == "id":
+        if original is not None and t != original.get("id"):
+            raise ValueError("the id of an existing reaction cannot change")
+        if not SLUG.match(t):
+            raise ValueError(f"{t[:40]!r} is not an id: use a-z, 0-9, '.', '_', '-'")
+        rec["id"] = t
+        return None
+    if name in ("equation", "notes", "source"):
+        if not t:
+            if name == "equation":
+                raise ValueError("a reaction needs an equation")
+            rec.pop(name, None)
+            return None
+        if name == "source" and not SLUG.match(t):
+            raise ValueError(f"{t[:40]!r} is not a source id: use a-z, 0-9, '.', '_', '-'")
+        if name != "source" and t[0] in "=+@":
+            # The schema refuses it too; this says why (an exported cell would be a spreadsheet formula).
+            raise ValueError(f"the {name} may not begin with {t[0]!r} (a spreadsheet would read a formula)")
+        rec[name] = t
+        return None
+    if name == "temperature_K":
+        if not t:
+            rec.pop(name, None)
+            return "at 298.15 K"
+        T = _parse_number(t)
+        if T <= 0:
+            raise ValueError("a temperature in kelvin is above zero")
+        rec[name] = T
+        return None
+    key, part = name.split(".", 1)
+    obj = rec.get(key)
+    if part == "value":
+        if not t:
+            rec.pop(key, None)
+            return f"the measured {REACTION_QUANTITIES[key][0]} will be removed" if obj is not None else None
+        value, note = _reaction_number(t, key)
+        rec[key] = dict(obj, value=value) if isinstance(obj, Mapping) else {"value": value}
+        return note
+    if not isinstance(obj, Mapping):
+        if t:
+            raise ValueError(f"give the measured {REACTION_QUANTITIES[key][0]} first")
+        return None
+    new = dict(obj)
+    rec[key] = new
+    if not t:
+        new.pop("uncertainty", None)
+        return None
+    u, note = _reaction_number(t, key)
+    if u < 0:
+        raise ValueError("an uncertainty cannot be negative")
+    new["uncertainty"] = u
+    return note
+
+
+def _reaction_pointer_field(pointer: str) -> str:
+    parts = [p for p in pointer.strip("/").split("/") if p]
+    if not parts:
+        return "record"
+    if parts[0] in REACTION_QUANTITIES:
+        return f"{parts[0]}.{parts[1] if len(parts) > 1 and parts[1] == 'uncertainty' else 'value'}"
+    return parts[0]
+
+
+def apply_reaction_edit(original: Mapping | None, texts: Mapping[str, str],
+                        species: Mapping[str, dict] | None = None,
+                        sources: Iterable[str] | None = None) -> EditResult:
+    """A would-be reaction from typed texts over ``original`` (None for a new reaction): each text
+    applied, the record checked against the reaction schema, and its equation parsed and balanced against
+    ``species`` when given. Problems and notes are keyed by field name (``drH.value``, ``equation``)."""
+    from .thermo import balance, parse_equation
+
+    rec: dict = copy.deepcopy(dict(original)) if original else {}
+    result = EditResult(rec)
+    for name in REACTION_FIELDS:
+        if name not in texts:
+            continue
+        try:
+            note = _apply_reaction_part(rec, name, texts[name], original)
+        except ValueError as exc:
+            result.problems[name] = str(exc)
+            continue
+        if note:
+            result.notes[name] = note
+    rec.setdefault("revision", 1)  # the schema wants one; the store sets the real number on save
+    if "id" not in rec and "id" not in result.problems:
+        result.problems["id"] = "a new reaction needs an id"
+    if not result.problems:
+        for pointer, msg in validation.errors("reactions", rec):
+            result.problems.setdefault(_reaction_pointer_field(pointer), msg)
+    eq = rec.get("equation")
+    if species is not None and isinstance(eq, str) and "equation" not in result.problems:
+        try:
+            reaction = parse_equation(eq, dict(species))
+            balance(reaction, species)
+        except InputError as exc:
+            result.problems["equation"] = exc.reason
+        else:
+            result.notes.setdefault("equation", f"read as {reaction.display()}")
+    src = rec.get("source")
+    if sources is not None and isinstance(src, str) and src not in set(sources):
+        result.notes.setdefault("source", f"no source named {src!r} yet: add it on the sources screen")
+    if not any(isinstance(rec.get(k), Mapping) for k in REACTION_QUANTITIES):
+        result.notes.setdefault("drH.value", "no measured value: the closure check has nothing to compare")
+    return result
+
+
+def reaction_findings(findings: Iterable[Any], ident: str) -> list:
+    """The findings of a check report about one reaction. Findings carry no reaction field (``species``
+    is for species); the checks name the reaction first in their message (``reaction <id> ...``, the
+    schema check ``reactions/<id>.json ...``), and an id is a slug, so the prefix is unambiguous."""
+    heads = (f"reaction {ident} ", f"reaction {ident}:", f"reactions/{ident}.json ")
+    return [f for f in findings if f.species is None and str(f.message).startswith(heads)]
+
+
+def reaction_closure_preview(context: Any, record: Mapping) -> list:
+    """The reaction-closure findings the check would give for a would-be reaction against the species
+    of ``context`` (a ``tablekeeper.checks.Context``, such as the snapshot the user sees)."""
+    import dataclasses
+
+    from .checks import run
+
+    ctx = dataclasses.replace(context, reactions={str(record.get("id") or "new"): dict(record)})
+    return run(ctx, only=["reaction-closure"]).findings
+
+
+def save_reaction(dataset: Dataset, original: Mapping | None, texts: Mapping[str, str], reason: str, *,
+                  species: Mapping[str, dict] | None = None) -> dict:
+    """Validate and save a reaction (new when ``original`` is None) with the user's reason, journaled.
+    ``original`` is the record as the user saw it: a save by someone else in between is a ConflictError
+    carrying both versions. InputError names the record and field."""
+    dataset.require("edit")
+    result = apply_reaction_edit(original, texts, species)
+    ident = result.record.get("id")
+    if not result.ok:
+        name, why = next(iter(result.problems.items()))
+        raise InputError(why, record=ident, field=name)
+    reason = (reason or "").strip()
+    if not reason:
+        raise InputError("a save needs a reason for the journal", record=ident, field="reason")
+    if original is not None and not diff(original, result.record):
+        raise InputError("nothing to save: no field differs from the reaction as loaded", record=ident)
+    if original is None and ident in dataset.ids("reactions"):
+        raise InputError("a reaction with this id exists already", record=ident, field="id")
+    expected = None if original is None else int(original.get("revision", 0))
+    return dataset.save("reactions", result.record, expected_revision=expected, reason=reason)
+
+
+def delete_reaction(dataset: Dataset, record: Mapping, reason: str) -> None:
+    """Delete a reaction as the user saw it (its revision must still be the one on disk), journaled with
+    the old values and the reason."""
+    dataset.require("edit")
+    ident = str(record.get("id"))
+    reason = (reason or "").strip()
+    if not reason:
+        raise InputError("a deletion needs a reason for the journal", record=ident, field="reason")
+    dataset.delete("reactions", ident, expected_revision=int(record.get("revision", 0)), reason=reason)

@@ -12,6 +12,7 @@ from textual import on
 from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
 from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.content import Content
 from textual.screen import ModalScreen
 from textual.widgets import Button, Checkbox, Input, Label, Select, Static
 
@@ -36,6 +37,15 @@ def value_text(v: object, present: bool = True) -> str:
     if isinstance(v, list):
         return "[" + ", ".join(value_text(x) for x in v) + "]"
     return printable(v)
+
+
+class MarkCheckbox(Checkbox):
+    """A checkbox whose state is a character, not a colour alone: ``[x]`` on, ``[ ]`` off (NO_COLOR).
+    Defined here, beside the dialogs that use it, and offered to the other screens by ``views``."""
+
+    @property
+    def _button(self) -> Content:
+        return Content.styled("[x]" if self.value else "[ ]", "bold")
 
 
 def changes_lines(changes: Sequence[FieldChange]) -> list[str]:
@@ -156,7 +166,7 @@ class FlagDialog(ModalScreen[dict | None]):
                 yield Input(placeholder="what looks wrong", id="note", compact=True)
             with Horizontal(classes="row"):
                 yield Label("", classes="label", markup=False)
-                yield Checkbox("blocking (stops a release while open)", id="blocking", compact=True)
+                yield MarkCheckbox("blocking (stops a release while open)", id="blocking", compact=True)
             yield Static("", id="problem", classes="msg -problem", markup=False)
             yield Static("Enter in the note or ctrl+s: raise   Escape: cancel", classes="hint", markup=False)
 

@@ -11,17 +11,15 @@ from dataclasses import dataclass
 from typing import ClassVar
 
 from textual import on
-from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.widgets import Static
 
 from ..checks import Finding
-from ..editing import apply_unit_fix, field_path, number_text, slip_unit
+from ..editing import apply_unit_fix, editor_path, field_path, number_text, slip_unit
 from ..text import printable
 from .dialogs import ConfirmDialog
 from .literal import lit, lit_lines
+from .views import ListScreen
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, KeyLine, TkScreen
 
 _SEV = {"error": "E", "warning": "W", "info": "i"}
 
@@ -33,12 +31,13 @@ class _Row:
     severity: str = ""
 
 
-class FindingsScreen(TkScreen):
+class FindingsScreen(ListScreen):
     """Findings by severity and check. Enter: open the record at the field; u: apply a unit fix."""
 
     ENTRY = "findings"
-    IS_LIST = True
     TITLE_TEXT = "Findings"
+    TABLE_ID = "findings-table"
+    DETAIL_ID = "finding-detail"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "back", "Back", id="findings.back"),
         Binding("u", "unit_fix", "Apply unit fix", id="findings.unit_fix"),
@@ -50,29 +49,12 @@ class FindingsScreen(TkScreen):
         self.rows: list[_Row] = []
         self._report = None
 
-    def compose(self) -> ComposeResult:
-        yield InfoBar()
-        yield VirtualTable(id="findings-table")
-        yield Static("", id="finding-detail", markup=False)
-        yield KeyLine()
-
-    def on_mount(self) -> None:
-        self.ready = True
-        self.table.focus()
-        self.data_changed()
-
-    @property
-    def table(self) -> VirtualTable:
-        return self.query_one("#findings-table", VirtualTable)
-
     @property
     def species_id(self) -> str | None:
         f = self.current
         return f.species if f else None
 
-    @property
-    def current(self) -> Finding | None:
-        i = self.table.cursor
+    def item_at(self, i: int) -> Finding | None:
         return self.rows[i].finding if 0 <= i < len(self.rows) else None
 
     def data_changed(self) -> None:
@@ -85,11 +67,11 @@ class FindingsScreen(TkScreen):
         if report is None:
             table.empty_text = "checking…"
             table.set_data(self._columns(), 0, lambda i: ())
-            self._detail()
+            self.show_detail()
             return
         table.empty_text = "checking…" if self.tk.checking else "no findings: the checks pass"
         if report is self._report:
-            self._detail()
+            self.show_detail()
             return
         keep = self.current
         self._report = report
@@ -108,7 +90,7 @@ class FindingsScreen(TkScreen):
         cursor = next((i for i, r in enumerate(rows) if keep is not None and r.finding == keep),
                       1 if len(rows) > 1 else 0)
         table.set_data(self._columns(), len(rows), self._cells, self._style, cursor=cursor)
-        self._detail()
+        self.show_detail()
 
     def _columns(self) -> list[Column]:
         return [Column("sev", ("",), 1), Column("species", ("species",), 16),
@@ -128,8 +110,8 @@ class FindingsScreen(TkScreen):
             return "group"
         return {"error": "error", "warning": "warning"}.get(r.severity)
 
-    def _detail(self) -> None:
-        detail = self.query_one("#finding-detail", Static)
+    def show_detail(self) -> None:
+        detail = self.detail
         f = self.current
         if f is None:
             snap = self.tk.snapshot
@@ -148,19 +130,12 @@ class FindingsScreen(TkScreen):
             lines.append("u: apply this correction")
         detail.update(lit_lines(lines))
 
-    @on(VirtualTable.RowHighlighted, "#findings-table")
-    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
-        self._detail()
-
     @on(VirtualTable.RowSelected, "#findings-table")
     def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
         f = self.current
         if f is None or not f.species:
             return
-        self.tk.open_record(f.species, field_path(f.field))
-
-    def action_back(self) -> None:
-        self.dismiss()
+        self.tk.open_record(f.species, editor_path(f.field))
 
     def action_check(self) -> None:
         self.tk.run_checks()

@@ -9,31 +9,25 @@ from __future__ import annotations
 from typing import ClassVar
 
 from textual import on
-from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.widgets import Static
 
 from .. import flags as core_flags
+from ..editing import editor_path
 from ..text import printable
 from .dialogs import TextDialog
 from .literal import lit, lit_lines
 from .record_screen import flag_field
+from .views import ListScreen
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, KeyLine, TkScreen
 
 
-def _field_path(field: str | None) -> str | None:
-    from ..editing import field_path
-
-    return field_path(field)
-
-
-class FlagsScreen(TkScreen):
+class FlagsScreen(ListScreen):
     """Flags of the dataset (or of one species): open ones first."""
 
     ENTRY = "flags"
-    IS_LIST = True
     TITLE_TEXT = "Flags"
+    TABLE_ID = "flags-table"
+    DETAIL_ID = "flag-detail"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "back", "Back", id="flags.back"),
         Binding("n", "new", "New flag", id="flags.new"),
@@ -49,26 +43,6 @@ class FlagsScreen(TkScreen):
         self.items: list[dict] = []
         if species:
             self.TITLE_TEXT = f"Flags of {species}"
-
-    def compose(self) -> ComposeResult:
-        yield InfoBar()
-        yield VirtualTable(id="flags-table")
-        yield Static("", id="flag-detail", markup=False)
-        yield KeyLine()
-
-    def on_mount(self) -> None:
-        self.ready = True
-        self.table.focus()
-        self.data_changed()
-
-    @property
-    def table(self) -> VirtualTable:
-        return self.query_one("#flags-table", VirtualTable)
-
-    @property
-    def current(self) -> dict | None:
-        i = self.table.cursor
-        return self.items[i] if 0 <= i < len(self.items) else None
 
     @property
     def species_id(self) -> str | None:
@@ -104,11 +78,11 @@ class FlagsScreen(TkScreen):
         self.table.empty_text = "no flags" if self.show_resolved else "no open flags"
         self.table.set_data(cols, len(items), cells,
                             lambda i: None if items[i].get("status") == "open" else "dim", cursor=cursor)
-        self._detail()
+        self.show_detail()
 
-    def _detail(self) -> None:
+    def show_detail(self) -> None:
         f = self.current
-        detail = self.query_one("#flag-detail", Static)
+        detail = self.detail
         if f is None:
             detail.update(lit("n: raise a flag on the species you are on"))
             return
@@ -124,18 +98,11 @@ class FlagsScreen(TkScreen):
                          + (f": {f.get('resolution')}" if f.get("resolution") else ""))
         detail.update(lit_lines(lines))
 
-    @on(VirtualTable.RowHighlighted, "#flags-table")
-    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
-        self._detail()
-
     @on(VirtualTable.RowSelected, "#flags-table")
     def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
         f = self.current
         if f and isinstance(f.get("species"), str):
-            self.tk.open_record(f["species"], _field_path(f.get("field")))
-
-    def action_back(self) -> None:
-        self.dismiss()
+            self.tk.open_record(f["species"], editor_path(f.get("field")))
 
     def action_toggle_all(self) -> None:
         self.show_resolved = not self.show_resolved

@@ -5,6 +5,12 @@ The fields are rows of a virtual table (one widget, so the screen opens at once)
 its text in the edit line at the bottom, where every key press is applied to the would-be record and
 validated (``tablekeeper.editing.RecordEdit``): the converted canonical value or the error sentence
 appears in the panel above the edit line. The save goes through ``editing.save_edit`` in a worker.
+
+The Cp(T) model is edited the same way, one number at a time: each range's bounds and coefficients (or
+each tabulated point) is a row. While a model part is edited, the panel shows Cp, H and S on both sides
+of the range break (``editing.cp_breaks``) and what the cp-model and cp-continuity checks say of the
+would-be record (``editing.cp_findings``). ctrl+d removes the whole model after a confirmation; like
+every edit it is saved with ctrl+s and a reason.
 """
 
 from __future__ import annotations
@@ -20,19 +26,27 @@ from textual.css.query import NoMatches
 from textual.widgets import Input, Static
 
 from ..editing import (
+    CP_MODEL,
     EDIT_FIELDS,
     SCALAR_FIELDS,
     SPEC_BY_PATH,
+    CpField,
     EditResult,
     FieldSpec,
     RecordEdit,
     conflict_rows,
-    field_path,
+    cp_breaks,
+    cp_fields,
+    cp_findings,
+    cp_span,
+    detailed_changes,
+    editor_path,
     field_text,
+    is_cp_path,
     number_text,
     save_edit,
 )
-from ..errors import ConflictError
+from ..errors import ConflictError, InputError
 from ..model import FIELDS, LABELS, display_name
 from ..text import printable
 from ..units import canonical_unit
@@ -55,11 +69,35 @@ def flag_field(path: str | None) -> str | None:
     return parts[1] if parts[0] == "properties" else parts[0]
 
 
-def row_label(spec: FieldSpec) -> str:
+def row_label(spec: FieldSpec | CpField) -> str:
+    if isinstance(spec, CpField):
+        return f"{spec.label} {spec.unit.replace('*', '·')}" if spec.unit else spec.label
     label = _ROW_LABEL.get(spec.part or spec.path, spec.label)
     if spec.unit:
         label = f"{label} {spec.unit.replace('*', '·')}"
     return label
+
+
+def break_cells(b) -> tuple[str, str, str]:
+    """Cp at a range break from both sides, as the label, value and note cells of a row (the numbers are
+    ``editing.cp_breaks``')."""
+    return (f"break at {b.T:g} K", f"{b.cp_below:.3f} | {b.cp_above:.3f}",
+            "Cp J/(mol·K) below | above")
+
+
+def break_text(b) -> str:
+    """Cp at a range break from both sides, in one line."""
+    return f"break at {b.T:g} K: Cp {b.cp_below:.3f} below, {b.cp_above:.3f} above J/(mol·K)"
+
+
+def break_detail(b) -> str:
+    """H and S at a range break from both sides (where the ranges carry their constants)."""
+    parts = []
+    if b.h_below is not None and b.h_above is not None:
+        parts.append(f"H {b.h_below:.3f} | {b.h_above:.3f} kJ/mol")
+    if b.s_below is not None and b.s_above is not None:
+        parts.append(f"S {b.s_below:.3f} | {b.s_above:.3f} J/(mol·K)")
+    return ("  " + ", ".join(parts) + " (below | above)") if parts else ""
 
 
 @dataclass(frozen=True)
@@ -70,6 +108,7 @@ class _Row:
     text: str = ""
     path: str | None = None  # the field (for "info": the field it concerns)
     severity: str = ""
+    cells: tuple[str, ...] = ()  # an "info" row's own label, value and note cells
 
 
 class FieldTable(VirtualTable):
@@ -102,6 +141,7 @@ class RecordScreen(TkScreen):
         Binding("ctrl+l", "reload_record", "Reload", id="record.reload"),
         Binding("ctrl+f", "flag", "Flag", id="record.flag"),
         Binding("ctrl+g", "flags", "Flags", show=False, id="record.flags"),
+        Binding("ctrl+d", "remove_model", "Remove Cp model", show=False, id="record.remove_model"),
     ]
 
     def __init__(self, ident: str, focus_field: str | None = None) -> None:
@@ -119,6 +159,9 @@ class RecordScreen(TkScreen):
         self._extra: dict[str, list[str]] = {}
         self._marks: dict[str, str] = {}
         self._info_rows: list[_Row] = []
+        self._cp_specs: dict[str, CpField] = {}
+        self._breaks: list = []  # editing.BreakValues of the would-be model
+        self._cp_checks: list | None = None  # would-be cp findings while the model is edited
 
     @property
     def read_only(self) -> bool:
@@ -235,7 +278,7 @@ class RecordScreen(TkScreen):
                 line = f"{sev} {f.check}: {f.message}"
                 if f.suggestion:
                     line += f" (suggestion: {f.suggestion})"
-                path = field_path(f.field)
+                path = editor_path(f.field)
                 if path:
                     extra.setdefault(path, []).append(line)
                     if _SEV_RANK.get(sev, 9) < _SEV_RANK.get(marks.get(path, ""), 9):
@@ -247,7 +290,8 @@ class RecordScreen(TkScreen):
                 line = (f"flag ({state}) on {fl.get('field')} by {fl.get('raised_by')} at "
                         f"{fl.get('raised_at')}: {fl.get('note')} ({n} comment{'s' if n != 1 else ''})")
                 fld = fl.get("field")
-                path = f"properties.{fld}.value" if fld in FIELDS else (fld if fld in SCALAR_FIELDS else None)
+                path = f"properties.{fld}.value" if fld in FIELDS else (
+                    fld if fld in SCALAR_FIELDS or fld == CP_MODEL else None)
                 if path:
                     extra.setdefault(path, []).append(line)
                     if fl.get("status") == "open":
@@ -272,8 +316,7 @@ class RecordScreen(TkScreen):
                 unit = canonical_unit(spec.prop).replace("*", "·")
                 rows.append(_Row("section", f"{LABELS[spec.prop]}  ({spec.prop}, {unit})"))
             rows.append(_Row("field", path=spec.path))
-        rows.append(_Row("section", "Cp(T) model"))
-        rows.append(_Row("info", self._cp_text(self._result.record)))
+        rows += self._cp_rows()
         rows.append(_Row("section", "Findings and flags of the record"))
         rows += self._info_rows or [_Row("info", "none")]
         self.rows = rows
@@ -284,13 +327,51 @@ class RecordScreen(TkScreen):
         self._field_info()
         self.update_bar()
 
+    def _cp_rows(self) -> list[_Row]:
+        """The model's rows: the model line, its source, each range's bounds and coefficients with the
+        break to the next range after them (Cp from both sides, of the would-be model)."""
+        assert self.edit is not None and self._result is not None
+        fields = cp_fields(self.edit.original)
+        self._cp_specs = {f.path: f for f in fields}
+        rows = [_Row("section", "Cp(T) model" + ("  (Enter edits a number; ctrl+d removes the model)"
+                                                 if fields and not self.read_only else ""))]
+        if not fields:
+            return [*rows, _Row("info", "no Cp(T) model (the fit screen makes one from Cp points)")]
+        model = self._result.record.get(CP_MODEL)
+        self._breaks, self._cp_checks = [], None
+        if isinstance(model, Mapping) and CP_MODEL not in self._result.problems:
+            try:
+                self._breaks = cp_breaks(model)
+            except InputError as exc:
+                self._result.problems.setdefault(CP_MODEL, exc.reason)
+        if any(is_cp_path(p) for p in self.edit.texts) and self._result.ok and isinstance(model, Mapping):
+            snap = self.tk.snapshot
+            self._cp_checks = cp_findings(self._result.record, snap.meta if snap else None)
+        if CP_MODEL in self.edit.texts and not self.edit.texts[CP_MODEL].strip():
+            return [*rows, _Row("field", path=CP_MODEL)]  # being removed: its parts are not shown
+        after: dict[str, list[_Row]] = {}
+        for b in self._breaks:
+            last = [f.path for f in fields if f.path.startswith(f"{CP_MODEL}.ranges.{b.below}.")]
+            if last:
+                bad = any(f.check == "cp-continuity" for f in self._cp_checks) if self._cp_checks is not None \
+                    else bool(self._extra.get(CP_MODEL)) and any("cp-continuity" in x for x in self._extra[CP_MODEL])
+                after[last[-1]] = [_Row("info", break_text(b), CP_MODEL, "error" if bad else "",
+                                        break_cells(b))]
+        for f in fields:
+            rows.append(_Row("field", path=f.path))
+            rows += after.get(f.path, [])
+        return rows
+
+    def _spec(self, path: str) -> FieldSpec | CpField:
+        return self._cp_specs[path] if is_cp_path(path) and path in self._cp_specs else SPEC_BY_PATH[path]
+
     def _row_marks(self, path: str) -> str:
         assert self.edit is not None and self._result is not None
         dirty = "*" if path in self.edit.texts else " "
         sev = "✗" if path in self._result.problems else self._marks.get(path, " ")
         return dirty + sev + self._marks.get(path + "#flag", " ")
 
-    def _note(self, spec: FieldSpec) -> str:
+    def _note(self, spec: FieldSpec | CpField) -> str:
         """The short note beside a field: its problem, the conversion made, what was entered, or the
         source's title."""
         assert self.edit is not None and self._result is not None
@@ -299,6 +380,13 @@ class RecordScreen(TkScreen):
             return f"✗ {res.problems[spec.path]}"
         if spec.path in res.notes:
             return res.notes[spec.path]
+        if isinstance(spec, CpField):
+            if spec.path == CP_MODEL:
+                model = self.edit.original.get(CP_MODEL)
+                src = model.get("source") if isinstance(model, Mapping) else None
+                return cp_span(model) + (f", source {src}" if src else "")
+            extra = self._extra.get(spec.path)
+            return extra[0] if extra else ""
         prop = ((res.record.get("properties") or {}).get(spec.prop) or {}) if spec.prop else {}
         if spec.part == "value":
             ent = prop.get("entered")
@@ -317,10 +405,12 @@ class RecordScreen(TkScreen):
         if row.kind == "section":
             return [printable(row.text)]
         if row.kind == "info":
+            if row.cells:
+                return ["", *row.cells]
             label = SPEC_BY_PATH[row.path].label if row.path in SPEC_BY_PATH else ""
             return ["", label, "", printable(row.text)]
         assert self.edit is not None and row.path is not None
-        spec = SPEC_BY_PATH[row.path]
+        spec = self._spec(row.path)
         return [self._row_marks(row.path), row_label(spec), printable(self.edit.text(row.path)),
                 printable(self._note(spec))]
 
@@ -347,13 +437,31 @@ class RecordScreen(TkScreen):
             i = self.table.cursor
             row = self.rows[i] if 0 <= i < len(self.rows) else None
             text = row.text if row is not None and row.kind == "info" else ""
-            panel.update(lit_lines([text] if text else []))
+            lines = [text] if text else []
+            if row is not None and row.cells:  # a range break: H and S too, and the checks' verdict
+                lines += [break_detail(b) for b in self._breaks if break_text(b) == text]
+                lines += self._cp_check_lines()[:1]
+            panel.update(lit_lines(lines))
             panel.set_class(False, "-problem")
             if not self.editing and line.value:
                 with line.prevent(Input.Changed):
                     line.value = ""
             return
-        spec = SPEC_BY_PATH[path]
+        spec = self._spec(path)
+        if isinstance(spec, CpField):
+            lines = self._cp_info_lines(spec, result)
+        else:
+            lines = self._info_lines(spec, result)
+        panel.update(lit_lines(lines))
+        panel.set_class(path in result.problems, "-problem")
+        if not self.editing:
+            want = printable(self.edit.text(path))
+            if line.value != want:
+                with line.prevent(Input.Changed):
+                    line.value = want
+
+    def _info_lines(self, spec: FieldSpec, result: EditResult) -> list[str]:
+        path = spec.path
         lines: list[str] = [f"{row_label(spec)}" + (f" of {LABELS[spec.prop]}" if spec.prop else "")
                             + ("  (Enter edits)" if not self.editing and not self.read_only else "")]
         if path in result.problems:
@@ -366,29 +474,47 @@ class RecordScreen(TkScreen):
         if spec.part == "value" and len(lines) == 1:
             lines.append("a number, optionally with a unit (-68.3 kcal/mol); empty removes the value")
         lines += [x for x in self._extra.get(path, []) if x != note]
-        panel.update(lit_lines(lines))
-        panel.set_class(path in result.problems, "-problem")
-        if not self.editing:
-            want = printable(self.edit.text(path))
-            if line.value != want:
-                with line.prevent(Input.Changed):
-                    line.value = want
+        return lines
 
-    @staticmethod
-    def _cp_text(rec: Mapping) -> str:
-        model = rec.get("cp_model")
-        if not isinstance(model, Mapping):
-            return "no Cp(T) model"
-        kind = model.get("kind", "?")
-        src = f", source {model.get('source')}" if model.get("source") else ""
-        if kind == "tabulated":
-            pts = model.get("points") or []
-            span = f"{number_text(pts[0][0])}–{number_text(pts[-1][0])} K" if pts else "no points"
-            return f"tabulated, {len(pts)} points, {span}{src}"
-        ranges = model.get("ranges") or []
-        span = (f"{number_text(ranges[0].get('tmin'))}–{number_text(ranges[-1].get('tmax'))} K"
-                if ranges else "no ranges")
-        return f"{kind}, {len(ranges)} range{'s' if len(ranges) != 1 else ''}, {span}{src}"
+    def _cp_check_lines(self) -> list[str]:
+        """What the cp-model and cp-continuity checks say of the edited model (nothing before an edit:
+        the record's own findings are listed then)."""
+        found = self._cp_checks
+        if found is None:
+            return []
+        if not found:
+            return ["the edited model passes the cp-model and cp-continuity checks"]
+        return [f"{'✗' if f.severity == 'error' else '!'} {f.check}: {f.message}" for f in found]
+
+    def _cp_info_lines(self, spec: CpField, result: EditResult) -> list[str]:
+        """The panel for a part of the model: what it is, its problem or the Cp at the nearest range break
+        from both sides, then the checks' verdict on the edited model (or H and S at the break)."""
+        path = spec.path
+        if path == CP_MODEL:
+            hint = "  (Enter or ctrl+d removes the whole model)" if not self.read_only else ""
+            lines = [f"the Cp(T) model{hint}"]
+        else:
+            hint = "  (Enter edits)" if not self.editing and not self.read_only else ""
+            lines = [f"{row_label(spec)} of the Cp(T) model{hint}"]
+        problem = result.problems.get(path) or result.problems.get(CP_MODEL)
+        parts = path.split(".")
+        rng = int(parts[2]) if len(parts) > 2 and parts[1] == "ranges" else None
+        near = [b for b in self._breaks if rng is None or b.below in (rng - 1, rng)]
+        near.sort(key=lambda b: abs(b.cp_below - b.cp_above), reverse=True)
+        if problem:
+            lines.append(f"✗ {problem}")
+        elif path in result.notes:
+            lines.append(result.notes[path])
+        elif near:
+            lines.append(break_text(near[0]))
+        checks = self._cp_check_lines()
+        if checks:
+            lines.append(checks[0])
+        elif near and not problem:
+            lines.append(break_detail(near[0]).strip())
+        else:
+            lines += self._extra.get(path, [])[:1]
+        return lines
 
     # -- navigating and typing -------------------------------------------------------------------------
 
@@ -407,6 +533,9 @@ class RecordScreen(TkScreen):
         if self.read_only:
             self.tk.notify(f"read-only: user {self.tk.user} may not edit; ctrl+f raises a flag",
                            severity="warning", markup=False)
+            return
+        if row.path == CP_MODEL:
+            self.action_remove_model()
             return
         self.start_edit(row.path)
 
@@ -490,6 +619,37 @@ class RecordScreen(TkScreen):
             return
         self._rebase(disk)
 
+    def action_remove_model(self) -> None:
+        """Remove the whole Cp(T) model, after a confirmation; saved like any edit (ctrl+s, a reason)."""
+        edit = self.edit
+        if edit is None:
+            return
+        if self.read_only:
+            self.tk.notify(f"user {self.tk.user} may not edit this dataset (the steward role edits)",
+                           severity="error", markup=False)
+            return
+        model = edit.original.get(CP_MODEL)
+        if not isinstance(model, Mapping):
+            self.tk.notify("the record has no Cp(T) model", severity="warning", markup=False)
+            return
+        if CP_MODEL in edit.texts:
+            self.tk.notify("the model is already marked for removal (ctrl+z on its line keeps it)",
+                           markup=False)
+            return
+        body = [f"{edit.text(CP_MODEL)}, {self._note(self._cp_specs[CP_MODEL])}",
+                "The removal is saved with ctrl+s and a reason; the journal keeps the old model."]
+
+        def answer(yes: bool | None) -> None:
+            if not yes:
+                return
+            if self.editing:
+                self.stop_edit(keep=True)
+            edit.set_text(CP_MODEL, "")
+            self.refresh_view()
+            self.focus_path(CP_MODEL)
+
+        self.app.push_screen(ConfirmDialog(f"Remove the Cp(T) model of {self.species_id}?", body), answer)
+
     def action_flag(self) -> None:
         self.tk.raise_flag_dialog(self.species_id, flag_field(self.current_path))
 
@@ -511,7 +671,8 @@ class RecordScreen(TkScreen):
 
         self.app.push_screen(ConfirmDialog(
             f"Leave {self.species_id} without saving?",
-            [f"{len(self.edit.dirty)} unsaved edit(s) will be lost:", *changes_lines(self.edit.changes())]),
+            [f"{len(self.edit.dirty)} unsaved edit(s) will be lost:",
+             *changes_lines(detailed_changes(self.edit.original, self.edit.result().record))]),
             answer)
 
     def action_save(self) -> None:
@@ -529,7 +690,7 @@ class RecordScreen(TkScreen):
             self.tk.notify(printable(result.sentences()[0]), severity="error", markup=False)
             self.focus_path(next(iter(result.problems)))
             return
-        changes = edit.changes()
+        changes = detailed_changes(edit.original, result.record)
         if not changes:
             self.tk.notify("nothing to save", markup=False)
             return

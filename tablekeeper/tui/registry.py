@@ -23,6 +23,7 @@ EXTENSIONS: tuple[str, ...] = (
     "tablekeeper.tui.release_screen",
     "tablekeeper.tui.thermo_screen",
     "tablekeeper.tui.fit_screen",
+    "tablekeeper.tui.reactions_screen",
 )
 
 

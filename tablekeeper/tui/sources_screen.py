@@ -20,19 +20,20 @@ from ..editing import SOURCE_FIELDS, SOURCE_KINDS, build_source, save_source, so
 from ..model import LABELS
 from ..text import printable
 from .literal import lit, lit_lines
+from .views import ListScreen
 from .vtable import Column, VirtualTable
-from .widgets import InfoBar, KeyLine, TkScreen
 
 if TYPE_CHECKING:
     from .app import TablekeeperApp
 
 
-class SourcesScreen(TkScreen):
+class SourcesScreen(ListScreen):
     """Bibliographic sources. n: add; e or Enter: edit; the values citing the highlighted source below."""
 
     ENTRY = "sources"
-    IS_LIST = True
     TITLE_TEXT = "Sources"
+    TABLE_ID = "sources-table"
+    DETAIL_ID = "source-detail"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "back", "Back", id="sources.back"),
         Binding("n", "new", "Add source", id="sources.new"),
@@ -42,26 +43,6 @@ class SourcesScreen(TkScreen):
     def __init__(self) -> None:
         super().__init__()
         self.items: list[dict] = []
-
-    def compose(self) -> ComposeResult:
-        yield InfoBar()
-        yield VirtualTable(id="sources-table")
-        yield Static("", id="source-detail", markup=False)
-        yield KeyLine()
-
-    def on_mount(self) -> None:
-        self.ready = True
-        self.table.focus()
-        self.data_changed()
-
-    @property
-    def table(self) -> VirtualTable:
-        return self.query_one("#sources-table", VirtualTable)
-
-    @property
-    def current(self) -> dict | None:
-        i = self.table.cursor
-        return self.items[i] if 0 <= i < len(self.items) else None
 
     def data_changed(self) -> None:
         self.update_bar()
@@ -83,11 +64,11 @@ class SourcesScreen(TkScreen):
         cursor = next((i for i, s in enumerate(items) if s.get("id") == keep), 0)
         self.table.empty_text = "no sources yet (n adds one)"
         self.table.set_data(cols, len(items), cells, cursor=cursor)
-        self._detail()
+        self.show_detail()
 
-    def _detail(self) -> None:
+    def show_detail(self) -> None:
         s = self.current
-        detail = self.query_one("#source-detail", Static)
+        detail = self.detail
         snap = self.tk.snapshot
         if s is None or snap is None:
             detail.update(lit(""))
@@ -108,16 +89,9 @@ class SourcesScreen(TkScreen):
                      + (f": {shown}{more}" if cites else ""))
         detail.update(lit_lines(lines))
 
-    @on(VirtualTable.RowHighlighted, "#sources-table")
-    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
-        self._detail()
-
     @on(VirtualTable.RowSelected, "#sources-table")
     def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
         self.action_edit()
-
-    def action_back(self) -> None:
-        self.dismiss()
 
     def _may_edit(self) -> bool:
         if self.tk.may("edit"):

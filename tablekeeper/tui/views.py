@@ -1,34 +1,94 @@
-"""What the species views (plot, thermo table, fit) share: the species they show, moving to another
-species, and the bindings for it.
+"""What screens share: the species views (plot, thermo table, fit) and the list screens (findings, flags,
+sources, reactions).
 
-A view opens on the species the user is on (the table's row or the open record); ``g`` asks for an id or
-``formula(phase)`` (resolved by the core's ``resolve_species``, as equations are), ``n``/``p`` step
+A species view opens on the species the user is on (the table's row or the open record); ``g`` asks for an
+id or ``formula(phase)`` (resolved by the core's ``resolve_species``, as equations are), ``n``/``p`` step
 through the species that the view can show. A view redraws only when its record changed on disk.
+
+A list screen is a top bar, a virtual table of items, a detail panel about the highlighted item and the
+key line (``ListScreen``).
 """
 
 from __future__ import annotations
 
-from typing import ClassVar
+from typing import Any, ClassVar
 
+from textual.app import ComposeResult
 from textual.binding import Binding, BindingType
-from textual.content import Content
-from textual.widgets import Checkbox
+from textual.widgets import Static
 
 from ..errors import TablekeeperError
 from ..model import display_name
 from ..text import printable
 from ..thermo import resolve_species
-from .dialogs import TextDialog
+from .dialogs import MarkCheckbox, TextDialog
 from .vtable import VirtualTable
-from .widgets import TkScreen
+from .widgets import InfoBar, KeyLine, TkScreen
+
+__all__ = ["ListScreen", "MarkCheckbox", "ReadTable", "SpeciesView", "view_bindings"]
 
 
-class MarkCheckbox(Checkbox):
-    """A checkbox whose state is a character, not a colour alone: ``[x]`` on, ``[ ]`` off (NO_COLOR)."""
+class ListScreen(TkScreen):
+    """Base of a list screen: top bar, a table of ``items``, a detail panel below it, the key line.
+
+    A subclass names its widgets (``TABLE_ID``, ``DETAIL_ID``), fills ``items`` and the table in
+    ``data_changed``, and writes the panel in ``show_detail`` (called whenever the cursor moves).
+    """
+
+    IS_LIST = True
+    TABLE_ID = "list-table"
+    DETAIL_ID = "list-detail"
+    #: The table widget: a subclass may name what Enter does in the key line.
+    TABLE_CLASS: type[VirtualTable] = VirtualTable
+    DEFAULT_CSS = """
+    ListScreen > .list-detail {
+        height: auto;
+        max-height: 5;
+        border-top: solid $panel-lighten-2;
+    }
+    """
+
+    def __init__(self) -> None:
+        super().__init__()
+        self.items: list[Any] = []
+
+    def compose(self) -> ComposeResult:
+        yield InfoBar()
+        yield self.TABLE_CLASS(id=self.TABLE_ID)
+        yield Static("", id=self.DETAIL_ID, classes="list-detail", markup=False)
+        yield KeyLine()
+
+    def on_mount(self) -> None:
+        self.ready = True
+        self.table.focus()
+        self.data_changed()
 
     @property
-    def _button(self) -> Content:
-        return Content.styled("[x]" if self.value else "[ ]", "bold")
+    def table(self) -> VirtualTable:
+        return self.query_one(f"#{self.TABLE_ID}", VirtualTable)
+
+    @property
+    def detail(self) -> Static:
+        return self.query_one(f"#{self.DETAIL_ID}", Static)
+
+    def item_at(self, i: int) -> Any:
+        """The item shown on row ``i`` (None for a heading or past the end)."""
+        return self.items[i] if 0 <= i < len(self.items) else None
+
+    @property
+    def current(self) -> Any:
+        """The item under the cursor, or None."""
+        return self.item_at(self.table.cursor)
+
+    def show_detail(self) -> None:
+        raise NotImplementedError
+
+    def on_virtual_table_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
+        if event.table.id == self.TABLE_ID:
+            self.show_detail()
+
+    def action_back(self) -> None:
+        self.dismiss()
 
 
 class ReadTable(VirtualTable):

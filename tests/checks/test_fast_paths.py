@@ -3,7 +3,8 @@
 * ``model.species_frame`` against the row-at-a-time definition it replaced, on hostile records;
 * ``formula.parse`` reading plain formulas itself against molmass reading every formula;
 * ``validation.errors_many`` (one loop, split over two processes) against ``validation.errors`` per
-  document, with the same verdicts as jsonschema;
+  document, and the compiled accept-only schema predicate against jsonschema (never accepting what
+  jsonschema refuses, refusing only what it refuses);
 * ``bulk.split_map`` against a plain call, and when its child process fails;
 * ``Dataset.load_all`` against ``Dataset.load`` file by file, damaged files included.
 """
@@ -299,3 +300,148 @@ def test_read_refuses_a_large_file_without_reading_it_whole(tmp_path) -> None:
     path.write_bytes(b"{}" + b" " * (3 * jsonio.MAX_FILE_BYTES))
     with pytest.raises(DamagedFileError, match="larger than"):
         jsonio.read(str(path))
+
+
+# -- the compiled schema predicate -----------------------------------------------------------------------
+
+VALID = {
+    "species": {"id": "co2-g", "revision": 3, "formula": "CO2", "phase": "g", "charge": 0, "status": "reviewed",
+                "name": "carbon dioxide", "form": "alpha", "reference_state": False, "cas": "124-38-9",
+                "notes": "CODATA key value", "properties": {
+                    "dfH298": {"value": -393.51, "unit": "kJ/mol", "uncertainty": 0.13, "coverage": 1,
+                               "source": "codata-1989", "method": "evaluated",
+                               "entered": {"value": -94.051, "unit": "kcal/mol", "uncertainty": 0.03}},
+                    "S298": {"value": 213.785, "unit": "J/(mol*K)"}},
+                "cp_model": {"kind": "shomate", "source": "nist", "ranges": [
+                    {"tmin": 298, "tmax": 1200, "A": 24.99735, "B": 55.18696, "C": -33.69137, "D": 7.948387,
+                     "E": -0.136638, "F": -403.6075, "G": 228.2431, "H": -393.5224}]}},
+    "sources": {"id": "codata-1989", "revision": 1, "title": "CODATA Key Values for Thermodynamics",
+                "year": 1989, "kind": "compilation"},
+}
+VALID_MODELS = [
+    {"kind": "nasa7", "ranges": [{"tmin": 200, "tmax": 1000, "a": [3.5, 0, 0, 0, 0, -1000, 3.2]}]},
+    {"kind": "tabulated", "points": [[298.15, 29.1], [500, 29.6]]},
+]
+# Replacements by the kind of value replaced (each just inside or outside some limit of the schemas),
+# and a pool of anything.
+NUMBERS = [True, 0, 1, -1, 1.0, 1.5, -0.0, 1e12, 1e13, -1e13, 1e9, 1e9 + 1, 10, 10.5, 20, 21, -21, 100000,
+           100001, 2.0**53, float("nan"), float("inf"), "1.5"]
+TEXTS = ["", "x", "=SUM(A1)", "+1", "@x", "\tx", "ok = fine", "g", "l", "aq", "gas", "kJ/mol", "J/(mol*K)",
+         "kcal/mol", "shomate", "nasa7", "tabulated", "draft", "reviewed", "estimated", "a" * 4000, "a" * 4001,
+         "co2-g\n", "Co2", "-co2", "a" * 64, "a" * 65, "CO2", "C O2", "Fe+3", "C\u00e9", "124-38-9", "12-3-4", 7]
+LISTS = [[], [1.0], [1.0, 2.0], [1, 2, 3, 4, 5, 6, 7], [1, 2, 3, 4, 5, 6, True], [[300, 1]],
+         [[300, 1], [200, 2]], [[300, 1, 2], [400, 2]], [{"tmin": 300}], "[]"]
+ANYTHING = [None, {}, {"value": 1, "unit": "kJ/mol"}, True, "x", 1, []]
+
+
+def _paths(doc, prefix=()):
+    yield prefix
+    if isinstance(doc, dict):
+        for k, v in doc.items():
+            yield from _paths(v, (*prefix, k))
+    elif isinstance(doc, list):
+        for i, v in enumerate(doc):
+            yield from _paths(v, (*prefix, i))
+
+
+def _has_nan(doc) -> bool:
+    if isinstance(doc, float):
+        return doc != doc
+    if isinstance(doc, dict):
+        return any(_has_nan(v) for v in doc.values())
+    if isinstance(doc, list):
+        return any(_has_nan(v) for v in doc)
+    return False
+
+
+@st.composite
+def mutated(draw: st.DrawFn) -> tuple[str, object]:
+    import copy
+
+    kind = draw(st.sampled_from(sorted(VALID)))
+    doc = copy.deepcopy(VALID[kind])
+    if kind == "species" and draw(st.booleans()):
+        doc["cp_model"] = copy.deepcopy(draw(st.sampled_from(VALID_MODELS)))
+    for _ in range(draw(st.integers(0, 3))):
+        paths = [p for p in _paths(doc) if p]
+        path = draw(st.sampled_from(paths))
+        parent = doc
+        for step in path[:-1]:
+            parent = parent[step]
+        how = draw(st.sampled_from(["replace", "replace", "replace", "delete", "add"]))
+        old = parent[path[-1]]
+        pool = (NUMBERS if isinstance(old, int | float) else TEXTS if isinstance(old, str)
+                else LISTS if isinstance(old, list) else ANYTHING)
+        if how == "replace":
+            parent[path[-1]] = copy.deepcopy(draw(st.sampled_from(pool if draw(st.integers(0, 4)) else ANYTHING)))
+        elif how == "delete" and isinstance(parent, dict):
+            del parent[path[-1]]
+        elif isinstance(parent, dict):
+            parent[draw(st.sampled_from(["extra", "kind", "unit", "a", "points", "G"]))] = \
+                copy.deepcopy(draw(st.sampled_from(ANYTHING + NUMBERS)))
+    return kind, doc
+
+
+@settings(max_examples=1500, deadline=None)
+@given(case=mutated())
+def test_compiled_predicate_agrees_with_jsonschema(case: tuple[str, object]) -> None:
+    kind, doc = case
+    accept = validation.accepts(kind)
+    valid = validation.validator(kind).is_valid(doc)
+    if accept(doc):
+        assert valid  # never accepts what jsonschema refuses
+    elif not _has_nan(doc):
+        assert not valid  # and refuses only what jsonschema refuses (NaN aside: it defers those)
+
+
+def test_species_schema_is_compiled() -> None:
+    """The species kind uses the compiled predicate (if the schema grew a keyword it lacks, this says so)."""
+    assert validation.accepts("species").__qualname__.startswith("compile_predicate")
+    for doc in (VALID["species"], dict(VALID["species"], cp_model=VALID_MODELS[0]),
+                dict(VALID["species"], cp_model=VALID_MODELS[1])):
+        assert validation.accepts("species")(doc)
+        assert validation.validator("species").is_valid(doc)
+
+
+def _single_mutations():
+    import copy
+
+    bases = [("species", VALID["species"]), ("sources", VALID["sources"])]
+    bases += [("species", dict(VALID["species"], cp_model=m)) for m in VALID_MODELS]
+    for kind, base in bases:
+        for path in _paths(base):
+            target = copy.deepcopy(base)
+            node = target
+            for step in path:
+                node = node[step]
+            if isinstance(node, dict):  # a key no schema names
+                node["extra"] = 1
+                yield kind, target
+            if not path:
+                continue
+            for value in [*NUMBERS, *TEXTS, *LISTS, *ANYTHING, "<deleted>"]:
+                doc = copy.deepcopy(base)
+                parent = doc
+                for step in path[:-1]:
+                    parent = parent[step]
+                if value == "<deleted>":
+                    if not isinstance(parent, dict):
+                        continue
+                    del parent[path[-1]]
+                else:
+                    parent[path[-1]] = copy.deepcopy(value)
+                yield kind, doc
+
+
+def test_compiled_predicate_agrees_with_jsonschema_on_every_single_change() -> None:
+    """Every value of valid records replaced by each value of the pools, or deleted, and every object given
+    an unknown key, one change at a time."""
+    n_valid = n = 0
+    for kind, doc in _single_mutations():
+        accepted = validation.accepts(kind)(doc)
+        valid = validation.validator(kind).is_valid(doc)
+        assert not accepted or valid, doc
+        assert accepted or not valid or _has_nan(doc), doc
+        n += 1
+        n_valid += valid
+    assert 0 < n_valid < n  # both verdicts occur
