@@ -7,6 +7,10 @@ conversion (``-68.3 kcal/mol`` becomes the canonical kJ/mol value, keeping what 
 species JSON Schema. Nothing here touches the disk except ``save_edit`` and ``apply_unit_fix``, which
 go through ``Dataset.save`` (revision check, atomic write, journal line with the user's reason).
 
+The same module edits a record's Cp(T) model one number at a time (paths such as
+``cp_model.ranges.1.a.0``, the whole model removed by emptying ``cp_model``), and measured reactions
+(``apply_reaction_edit``, ``save_reaction``, ``delete_reaction``), each checked as the user types.
+
 Numbers are shown in the shortest text that reads back as the same float (``repr``), never rounded to
 a fixed number of decimals, so that what a user sees is exactly what is stored.
 """

@@ -88,9 +88,13 @@ def read(path: str | os.PathLike[str]) -> Any:
     """
     name = os.fspath(path)
     try:
-        with open(name, "rb", buffering=0) as fh:
+        with open(name, "rb") as fh:  # buffered: read(n) returns n bytes unless the file ends first
             size = os.fstat(fh.fileno()).st_size
-            raw = fh.read(MAX_FILE_BYTES + 1) if size <= MAX_FILE_BYTES else b""
+            # Ask for what the file holds (a buffer of the limit per file would cost more than the
+            # parse); a file that grew since, or a special file that reports no size, reads on to the limit.
+            raw = fh.read(size + 1) if size <= MAX_FILE_BYTES else b""
+            if len(raw) > size:
+                raw += fh.read(MAX_FILE_BYTES + 1 - len(raw))
     except OSError as exc:
         raise DamagedFileError(f"cannot be read ({exc.strerror})", file=name) from None
     if size > MAX_FILE_BYTES or len(raw) > MAX_FILE_BYTES:

@@ -5,10 +5,15 @@ Layout (DESIGN.md section 3)::
     <dataset>/dataset.json, species/, sources/, reactions/, flags/, releases/, journal.jsonl
 
 Every save takes the dataset lock (``.tablekeeper.lock``, through ``filelock``), compares the revision
-on disk with the one the editor loaded, writes a temporary file in the same folder, flushes and fsyncs
-it, gives it the mode of the file it replaces, renames it over the target, fsyncs the folder, and
-appends one journal line, all before the lock is released. A process killed at any moment leaves
-either the old or the new record; leftover temporary files are removed at the next open, and a torn
+on disk with the one the editor loaded, and then writes ahead: (1) the new version goes to a temporary
+file in the same folder, flushed, fsynced and given the mode of the file it replaces; (2) its journal
+line is appended and fsynced; (3) the temporary file is renamed over the target; (4) the folder is
+fsynced; all before the lock is released. A delete journals first and unlinks after. The journal is
+the audit trail, so the journal line comes before the change it records: a process killed at any
+moment leaves the old or the new record and a journal that agrees with it once ``recover()`` (run at
+every open, and for one record before each save of it) has renamed into place a staged save whose
+journal line exists, carried out a journaled delete, and removed every other temporary file. A save
+that fails with an error takes its journal line back and leaves the previous file as it was. A torn
 last journal line is set aside in ``journal.torn`` instead of being loaded.
 """
 
@@ -19,6 +24,7 @@ import getpass
 import os
 import re
 import secrets
+import stat
 from collections.abc import Iterable, Iterator
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -44,6 +50,11 @@ LOCK_NAME = ".tablekeeper.lock"
 JOURNAL = "journal.jsonl"
 TORN = "journal.torn"
 _TMP_MARK = ".tmp-"
+#: Tags after ``_TMP_MARK``: a save staged under the lock, the marker of a delete in progress, and
+#: the kept previous version of a record (``keep-`` prefix).
+_PENDING = "pending"
+_DELETING = "delete"
+_KEEP = "keep-"
 
 #: Which roles may do what. A dataset without roles lets every user do everything.
 ROLE_FOR_ACTION: dict[str, tuple[str, ...]] = {
@@ -65,6 +76,9 @@ class Safety:
     lock: bool = True
     fsync: bool = True
     atomic: bool = True
+    #: Write ahead: the journal line before the rename (False: after it, which loses the journal line of
+    #: a save killed between the two).
+    journal_first: bool = True
 
 
 SAFETY = Safety()
@@ -163,21 +177,34 @@ def _new_file_mode(folder: Path) -> int:
     return mode
 
 
-def atomic_write(path: Path, data: bytes) -> None:
-    """Replace ``path`` with ``data`` atomically: temp file, fsync, mode, rename, fsync folder.
-
-    An error at any step leaves the previous file untouched and removes the temporary file.
-    """
-    folder = path.parent
-    if not SAFETY.atomic:  # control runs of the reliability tests only
-        with open(path, "wb") as fh:
-            fh.write(data)
-        return
+def _mode_for(path: Path) -> int:
+    """The mode a new version of ``path`` gets: the mode of the file it replaces, else a new file's."""
     try:
-        mode = path.stat().st_mode & 0o7777
+        return path.stat().st_mode & 0o7777
     except FileNotFoundError:
-        mode = _new_file_mode(folder)
-    tmp = folder / f".{path.name}{_TMP_MARK}{os.getpid()}-{secrets.token_hex(4)}"
+        return _new_file_mode(path.parent)
+
+
+def _temp_name(path: Path) -> Path:
+    return path.parent / f".{path.name}{_TMP_MARK}{os.getpid()}-{secrets.token_hex(4)}"
+
+
+def _pending_path(path: Path) -> Path:
+    """Where a save stages the new version of ``path``. A fixed name under the lock, so that the next
+    writer of the record finds a killed save with one stat; a unique name without the lock (control
+    runs only), where two writers would otherwise collide."""
+    if SAFETY.lock:
+        return path.parent / f".{path.name}{_TMP_MARK}{_PENDING}"
+    return _temp_name(path)
+
+
+def _delete_marker(path: Path) -> Path:
+    return path.parent / f".{path.name}{_TMP_MARK}{_DELETING}"
+
+
+def _write_temp(tmp: Path, data: bytes, mode: int) -> None:
+    """Create ``tmp`` (never an existing file or link: O_EXCL), write ``data``, fsync it, give it
+    ``mode``. On any error the temporary file is removed and the error raised."""
     fd = os.open(tmp, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600)
     try:
         try:
@@ -190,6 +217,43 @@ def atomic_write(path: Path, data: bytes) -> None:
             os.fchmod(fd, mode)
         finally:
             os.close(fd)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except OSError:
+            pass
+        raise
+
+
+def _last_entry(raw: bytes, target: str) -> dict | None:
+    """The last whole journal entry for ``target`` in the journal bytes ``raw`` (a torn or damaged line
+    is not an entry). Scans from the end; lines that do not mention the target are not parsed."""
+    needle = target.encode()
+    for line in reversed(raw.split(b"\n")):
+        if needle not in line:
+            continue
+        try:
+            obj = orjson.loads(line)
+        except orjson.JSONDecodeError:
+            continue
+        if isinstance(obj, dict) and obj.get("target") == target:
+            return obj
+    return None
+
+
+def atomic_write(path: Path, data: bytes) -> None:
+    """Replace ``path`` with ``data`` atomically: temp file, fsync, mode, rename, fsync folder.
+
+    An error at any step leaves the previous file untouched and removes the temporary file.
+    """
+    folder = path.parent
+    if not SAFETY.atomic:  # control runs of the reliability tests only
+        with open(path, "wb") as fh:
+            fh.write(data)
+        return
+    tmp = _temp_name(path)
+    _write_temp(tmp, data, _mode_for(path))
+    try:
         os.replace(tmp, path)
     except BaseException:
         try:
@@ -283,7 +347,13 @@ class Dataset:
         return self._lock if SAFETY.lock else _NoLock()
 
     def recover(self) -> list[Path]:
-        """Remove temporary files left by a killed save. Done under the lock, so never one in use."""
+        """Finish or discard what killed processes left; returns the temporary files found.
+
+        Done under the lock, so never work in progress. A staged save whose journal line exists is
+        renamed into place, a journaled delete is carried out, every other temporary file (a save killed
+        before its journal line, a kept previous version, a torn temporary file) is removed. Afterwards
+        the journal and the records agree.
+        """
         leftovers = [p for kind in KINDS if (self.root / kind).is_dir()
                      for p in (self.root / kind).iterdir() if _TMP_MARK in p.name]
         leftovers += [p for p in self.root.iterdir() if _TMP_MARK in p.name]
@@ -291,14 +361,88 @@ class Dataset:
             return []
         try:
             with self._lock.acquire(timeout=2):
-                for p in leftovers:
-                    try:
-                        p.unlink()
-                    except FileNotFoundError:
-                        pass
+                self._settle_files(sorted(leftovers))
         except (filelock.Timeout, OSError):
             return []  # read-only or busy: leave them, the next writer's open will do it
         return leftovers
+
+    def _settle(self, path: Path) -> None:
+        """Before a save or delete of one record (under the lock): finish or discard a killed save or
+        delete of the same record. Another process may have been killed after this one opened the
+        dataset, and its journal line must not be followed by a second save of the same revision. Two
+        stats when there is nothing to do."""
+        if SAFETY.lock:
+            found = [p for p in (path.parent / f".{path.name}{_TMP_MARK}{_PENDING}", _delete_marker(path))
+                     if os.path.lexists(p)]
+            if found:
+                self._settle_files(found)
+
+    def _settle_files(self, leftovers: list[Path]) -> None:
+        """Rename, carry out or remove each temporary file (see ``recover``). Under the lock."""
+        raw: bytes | None = None
+        touched: set[Path] = set()
+        for p in leftovers:
+            try:
+                regular = stat.S_ISREG(os.lstat(p).st_mode)
+            except FileNotFoundError:
+                continue
+            kind = p.parent.name if p.parent.parent == self.root else ""
+            target_name, _, tag = p.name[1:].partition(_TMP_MARK)
+            ident = target_name[:-5] if target_name.endswith(".json") else ""
+            # Only a regular file named for a record can finish a save; dataset.json is saved in the
+            # plain order (rename, then journal), so its temporary files are always removed.
+            if kind in KINDS and regular and p.name.startswith(".") and SLUG.match(ident) \
+                    and not tag.startswith(_KEEP):
+                if raw is None:
+                    try:
+                        raw = (self.root / JOURNAL).read_bytes()
+                    except FileNotFoundError:
+                        raw = b""
+                target = p.parent / target_name
+                last = _last_entry(raw, f"{kind}/{ident}")
+                if tag == _DELETING:
+                    if self._journaled_delete(ident, target, last):
+                        target.unlink()
+                        touched.add(p.parent)
+                elif self._journaled_save(kind, ident, target, p, last):
+                    os.replace(p, target)
+                    touched.add(p.parent)
+                    continue
+            p.unlink(missing_ok=True)
+        if SAFETY.fsync:
+            for folder in touched:
+                _fsync_dir(folder)
+
+    def _journaled_save(self, kind: str, ident: str, target: Path, tmp: Path, last: dict | None) -> bool:
+        """True when ``tmp`` holds the record one revision past ``target`` (revision 1 where there is no
+        target) and the journal's last entry for the record is that save: it was accepted, only its
+        rename is missing."""
+        if last is None or last.get("action") == "delete":
+            return False
+        try:
+            new = jsonio.read(tmp)
+            old = self._checked(target, ident) if target.exists() else None
+        except (DamagedFileError, OSError):
+            return False
+        if not isinstance(new, dict) or new.get("version" if kind == "releases" else "id") != ident:
+            return False
+        if kind == "releases":  # releases carry no revision and are never replaced
+            return old is None and last.get("revision") == 1
+        found = old.get("revision", 0) if old else 0
+        rev = new.get("revision")
+        return isinstance(rev, int) and isinstance(found, int) and rev == found + 1 \
+            and last.get("revision") == rev
+
+    def _journaled_delete(self, ident: str, target: Path, last: dict | None) -> bool:
+        """True when the journal's last entry for the record is a delete of the revision on disk: the
+        delete was accepted, only the unlink is missing."""
+        if last is None or last.get("action") != "delete" or not target.exists():
+            return False
+        try:
+            old = self._checked(target, ident)
+        except (DamagedFileError, OSError):
+            return False
+        return last.get("revision") == old.get("revision", 0)
 
     # -- permissions -----------------------------------------------------------------------------------
 
@@ -404,9 +548,8 @@ class Dataset:
 
     # -- writing ---------------------------------------------------------------------------------------
 
-    def append_journal(self, action: str, target: str, *, revision: int | None = None,
-                       changes: list | None = None, reason: str | None = None,
-                       _locked: bool = False) -> dict:
+    def _entry(self, action: str, target: str, *, revision: int | None = None,
+               changes: list | None = None, reason: str | None = None) -> dict[str, Any]:
         entry: dict[str, Any] = {"time": utc_now(), "user": self.user, "action": action, "target": target}
         if revision is not None:
             entry["revision"] = revision
@@ -414,6 +557,12 @@ class Dataset:
             entry["changes"] = changes
         if reason:
             entry["reason"] = reason
+        return entry
+
+    def append_journal(self, action: str, target: str, *, revision: int | None = None,
+                       changes: list | None = None, reason: str | None = None,
+                       _locked: bool = False) -> dict:
+        entry = self._entry(action, target, revision=revision, changes=changes, reason=reason)
         if _locked:
             self._append_line(jsonio.dumps_line(entry))
         else:
@@ -421,7 +570,10 @@ class Dataset:
                 self._append_line(jsonio.dumps_line(entry))
         return entry
 
-    def _append_line(self, line: bytes) -> None:
+    def _append_line(self, line: bytes) -> int:
+        """Append ``line`` (one or more whole entries) with one write and one fsync; return the offset
+        it starts at, so that a save failing later can take it back. A failed write or fsync takes it
+        back here: a reported failure leaves no partial line."""
         path = self.root / JOURNAL
         fd = os.open(path, os.O_RDWR | os.O_CREAT | os.O_APPEND, _new_file_mode(self.root))
         try:
@@ -432,19 +584,29 @@ class Dataset:
                 if _is_entry(torn):
                     # A whole entry that lost only its newline (journal() loads it): complete it.
                     os.write(fd, b"\n")
+                    size += 1
                 else:
                     # A torn last line from a killed writer: set it aside, never glue onto it.
                     with open(self.root / TORN, "ab") as fh:
                         fh.write(torn + b"\n")
                     os.ftruncate(fd, keep)
-            view = memoryview(line)
-            while view:
-                n = os.write(fd, view)
-                view = view[n:]
-            if SAFETY.fsync:
-                os.fsync(fd)
+                    size = keep
+            try:
+                view = memoryview(line)
+                while view:
+                    n = os.write(fd, view)
+                    view = view[n:]
+                if SAFETY.fsync:
+                    os.fsync(fd)
+            except BaseException:
+                try:
+                    os.ftruncate(fd, size)
+                except OSError:
+                    pass  # the original error is raised; the next append sets a partial line aside
+                raise
         finally:
             os.close(fd)
+        return size
 
     def _journal_size(self) -> int:
         try:
@@ -470,11 +632,33 @@ class Dataset:
     def _forget(kept: list[tuple[Path, Path | bytes | None]]) -> None:
         for _, keep in kept:
             if isinstance(keep, Path):
-                keep.unlink(missing_ok=True)
+                try:
+                    keep.unlink(missing_ok=True)
+                except OSError:
+                    pass  # the change is complete; recover() removes the kept link at the next open
 
-    def _undo(self, kept: list[tuple[Path, Path | bytes | None]], journal_size: int) -> None:
-        """After a save failed past its rename (a folder fsync, the journal append): put the files and
-        the journal back as they were, so that an error reported to the user means nothing changed."""
+    def _rollback(self, staged: list[Path], kept: list[tuple[Path, Path | bytes | None]],
+                  journal_start: int | None) -> None:
+        """After a save or delete failed with an error: take its journal lines back (the journal first:
+        should a broken disk refuse the rest, a staged file with its journal line is still finished by
+        recover(), never a journal line left for a change that is gone), remove its temporary files
+        and put back the files it replaced, so that an error reported to the user means nothing
+        changed."""
+        if journal_start is not None:
+            try:
+                if self._journal_size() > journal_start:
+                    os.truncate(self.root / JOURNAL, journal_start)
+            except OSError:
+                return
+        for tmp in staged:
+            try:
+                tmp.unlink(missing_ok=True)
+            except OSError:
+                pass
+        self._undo(kept)
+
+    def _undo(self, kept: list[tuple[Path, Path | bytes | None]]) -> None:
+        """Put back the files a failed save replaced (or remove the ones it created)."""
         for path, keep in kept:
             try:
                 if keep is None:
@@ -488,11 +672,39 @@ class Dataset:
                     atomic_write(path, keep)
             except OSError:
                 pass  # the original error is raised; a disk this broken is reported by the next check
+
+    def _commit(self, writes: list[tuple[Path, bytes]], lines: bytes) -> None:
+        """Write ahead, under the lock: stage every new version (written and fsynced under a temporary
+        name), append all their journal lines with one write and one fsync, rename them into place,
+        fsync the folder. A kill leaves either staged files without journal lines, which recover()
+        removes, or journal lines and staged files, which recover() renames into place. An error leaves
+        the files and the journal as they were."""
+        if not SAFETY.atomic:  # control runs only: write in place, then journal
+            for path, data in writes:
+                atomic_write(path, data)
+            self._append_line(lines)
+            return
+        kept = [(path, self._keep(path)) for path, _ in writes]
+        staged: list[tuple[Path, Path]] = []
+        start: int | None = None
         try:
-            if self._journal_size() > journal_size:
-                os.truncate(self.root / JOURNAL, journal_size)
-        except OSError:
-            pass
+            for path, data in writes:
+                tmp = _pending_path(path)
+                _write_temp(tmp, data, _mode_for(path))
+                staged.append((tmp, path))
+            if SAFETY.journal_first:
+                start = self._append_line(lines)
+            for tmp, path in staged:
+                os.replace(tmp, path)
+            if SAFETY.fsync:
+                for folder in sorted({path.parent for path, _ in writes}):
+                    _fsync_dir(folder)
+            if not SAFETY.journal_first:  # control runs only: the order that loses journal lines
+                start = self._append_line(lines)
+        except BaseException:
+            self._rollback([tmp for tmp, _ in staged], kept, start)
+            raise
+        self._forget(kept)
 
     def save(self, kind: str, record: dict, *, expected_revision: int | None, reason: str | None = None,
              action: str | None = None) -> dict:
@@ -505,6 +717,7 @@ class Dataset:
         ident = check_id(record.get("id") if kind != "releases" else record.get("version"))
         path = self.path(kind, ident)
         with self.lock():
+            self._settle(path)
             old = self._checked(path, ident) if path.exists() else None
             found = int(old.get("revision", 0)) if old else 0
             want = expected_revision or 0
@@ -515,84 +728,80 @@ class Dataset:
             new = dict(record)
             if kind != "releases":
                 new["revision"] = found + 1
-            kept = [(path, self._keep(path))]
-            size = self._journal_size()
-            try:
-                atomic_write(path, jsonio.dumps(new))
-                changes = field_changes(old, new)
-                self.append_journal(action or ("create" if old is None else "update"), f"{kind}/{ident}",
-                                    revision=new.get("revision", 1), changes=changes, reason=reason,
-                                    _locked=True)
-            except BaseException:
-                self._undo(kept, size)
-                raise
-            self._forget(kept)
+            entry = self._entry(action or ("create" if old is None else "update"), f"{kind}/{ident}",
+                                revision=new.get("revision", 1), changes=field_changes(old, new),
+                                reason=reason)
+            self._commit([(path, jsonio.dumps(new))], jsonio.dumps_line(entry))
         return new
 
     def save_many(self, kind: str, records: Iterable[tuple[dict, int | None]], *, reason: str | None,
                   action: str = "import") -> list[dict]:
         """Save several records all or nothing: every revision is checked before anything is written,
-        all temporary files are written before the first rename."""
+        all temporary files are written, then all journal lines appended in one write, before the first
+        rename. A record may appear once: two saves of one revision would journal it twice."""
         self.require(ACTION_OF_KIND[kind])
         items = list(records)
         with self.lock():
             plans = []
+            seen: set[str] = set()
             for record, expected in items:
                 ident = check_id(record.get("id"))
+                if ident in seen:
+                    raise InputError("appears twice in one import; merge the two rows", record=ident)
+                seen.add(ident)
                 path = self.path(kind, ident)
+                self._settle(path)
                 old = self._checked(path, ident) if path.exists() else None
                 found = int(old.get("revision", 0)) if old else 0
                 if (old is None and expected not in (None, 0)) or (old is not None and found != (expected or 0)):
                     raise ConflictError(f"{kind}/{ident}", expected or 0, found, old, record)
                 new = dict(record, revision=found + 1)
                 plans.append((path, old, new))
-            staged: list[tuple[Path, Path]] = []
-            kept = [(p, self._keep(p)) for p, _, _ in plans]
-            size = self._journal_size()
-            try:
-                for path, _old, new in plans:
-                    tmp = path.parent / f".{path.name}{_TMP_MARK}{os.getpid()}-{secrets.token_hex(4)}"
-                    staged.append((tmp, path))
-                    atomic_write(tmp, jsonio.dumps(new))  # fsynced under its own temporary name
-                    if _old is not None:  # keep the mode of the file it replaces, as save() does
-                        os.chmod(tmp, path.stat().st_mode & 0o7777)
-                for tmp, path in staged:
-                    os.replace(tmp, path)
-                if SAFETY.fsync and staged:
-                    _fsync_dir(staged[0][1].parent)
-                for path, old, new in plans:
-                    self.append_journal(action if old is None else "update", f"{kind}/{path.stem}",
-                                        revision=new["revision"], changes=field_changes(old, new),
-                                        reason=reason, _locked=True)
-            except BaseException:
-                for tmp, _ in staged:
-                    tmp.unlink(missing_ok=True)
-                self._undo(kept, size)
-                raise
-            self._forget(kept)
+            if plans:
+                lines = b"".join(
+                    jsonio.dumps_line(self._entry(action if old is None else "update", f"{kind}/{path.stem}",
+                                                  revision=new["revision"], changes=field_changes(old, new),
+                                                  reason=reason))
+                    for path, old, new in plans)
+                self._commit([(path, jsonio.dumps(new)) for path, _, new in plans], lines)
         return [new for _, _, new in plans]
 
     def delete(self, kind: str, ident: str, *, expected_revision: int, reason: str | None = None) -> None:
         self.require(ACTION_OF_KIND[kind])
         path = self.path(kind, ident)
         with self.lock():
+            self._settle(path)
             if not path.exists():
                 raise NotFoundError(kind, ident)
             old = self._checked(path, ident)
             found = int(old.get("revision", 0))
             if found != expected_revision:
                 raise ConflictError(f"{kind}/{ident}", expected_revision, found, old, None)
+            line = jsonio.dumps_line(self._entry("delete", f"{kind}/{ident}", revision=found,
+                                                 changes=field_changes(old, None), reason=reason))
             kept = [(path, self._keep(path))]
-            size = self._journal_size()
+            marker = _delete_marker(path)
+            staged: list[Path] = []
+            start: int | None = None
             try:
+                if SAFETY.journal_first:
+                    # Journal first, unlink after. The marker lets the next writer of this record (and
+                    # recover()) find a delete killed between the two with one stat.
+                    os.close(os.open(marker, os.O_WRONLY | os.O_CREAT | os.O_EXCL, 0o600))
+                    staged.append(marker)
+                    start = self._append_line(line)
                 path.unlink()
                 if SAFETY.fsync:
                     _fsync_dir(path.parent)
-                self.append_journal("delete", f"{kind}/{ident}", revision=found,
-                                    changes=field_changes(old, None), reason=reason, _locked=True)
+                if not SAFETY.journal_first:  # control runs only
+                    start = self._append_line(line)
             except BaseException:
-                self._undo(kept, size)
+                self._rollback(staged, kept, start)
                 raise
+            try:
+                marker.unlink(missing_ok=True)
+            except OSError:
+                pass  # done and journaled; recover() removes the marker of a record that is gone
             self._forget(kept)
 
     def save_meta(self, meta: dict, reason: str | None = None) -> None:

@@ -17,13 +17,26 @@ import math
 import re
 from dataclasses import dataclass
 
-import pint
 
 from .errors import UnitError
 
 #: The one registry. Built once; pint registries are slow to construct.
-ureg = pint.UnitRegistry()
-ureg.formatter.default_format = "~P"
+@functools.cache
+def registry():
+    """The one pint registry, built on first use (building it costs about half a second, and most
+    commands, ``check`` among them, never convert a unit)."""
+    import pint
+
+    reg = pint.UnitRegistry()
+    reg.formatter.default_format = "~P"
+    return reg
+
+
+def __getattr__(name: str):
+    # ``units.ureg`` stays available as a module attribute, built lazily.
+    if name == "ureg":
+        return registry()
+    raise AttributeError(name)
 
 #: Avogadro constant (exact, SI 2019) used for per-particle quantities.
 AVOGADRO = 6.02214076e23
@@ -51,14 +64,8 @@ FIELD_KINDS: dict[str, FieldKind] = {
     "Cp298": MOLAR_ENTROPY,
 }
 
-_CANONICAL_Q = {
-    MOLAR_ENERGY.name: ureg.Quantity(1, "kJ/mol"),
-    MOLAR_ENTROPY.name: ureg.Quantity(1, "J/(mol*K)"),
-}
-_PER_PARTICLE = {
-    MOLAR_ENERGY.name: ureg.Quantity(1, "J"),
-    MOLAR_ENTROPY.name: ureg.Quantity(1, "J/K"),
-}
+_CANONICAL = {MOLAR_ENERGY.name: "kJ/mol", MOLAR_ENTROPY.name: "J/(mol*K)"}
+_PER_PARTICLE = {MOLAR_ENERGY.name: "J", MOLAR_ENTROPY.name: "J/K"}
 
 _EXPONENT = re.compile(r"([A-Za-z]+)\s*\^?\s*(-?\d+)")
 
@@ -94,20 +101,23 @@ def factor_to_canonical(unit: str, field: str) -> float:
         raise UnitError(f"{field!r} is not a field with a unit", field=field)
     if not unit or not unit.strip():
         raise UnitError("a unit is required", field=field)
+    if unit == kind.canonical:
+        return 1.0  # no need to build the registry for the canonical spelling
     text = normalise(unit)
     if len(unit) > 100 or not _bounded_powers(text):
         # pint evaluates number powers exactly: "9^999999999" would compute for hours.
         raise UnitError(f"{unit[:40]!r} is too long or has a power too large for a unit", field=field)
     try:
+        ureg = registry()
         q = ureg.Quantity(1, text)
         dim = q.dimensionality  # logarithmic units (Np, dB) have none: AttributeError
     except Exception as exc:  # pint raises several unrelated types on bad syntax
         raise UnitError(f"{unit!r} is not a unit tablekeeper understands ({type(exc).__name__})",
                         field=field) from None
-    target = _CANONICAL_Q[kind.name]
+    target = ureg.Quantity(1, _CANONICAL[kind.name])
     if dim == target.dimensionality:
         f = q.to(target.units).magnitude
-    elif dim == _PER_PARTICLE[kind.name].dimensionality:
+    elif dim == ureg.Quantity(1, _PER_PARTICLE[kind.name]).dimensionality:
         # A per-particle quantity (eV, J/K per molecule): molar after × N_A.
         f = (q * AVOGADRO * ureg.mol**-1).to(target.units).magnitude
     else:

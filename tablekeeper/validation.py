@@ -18,7 +18,7 @@ from __future__ import annotations
 import functools
 import json
 import re
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping
 from importlib import resources
 from typing import Any
 
@@ -26,7 +26,7 @@ import fastjsonschema
 import jsonschema
 from jsonschema import Draft202012Validator
 
-from .bulk import paused_gc, split_map
+from .bulk import paused_gc
 
 SCHEMA_FILES = {
     "dataset": "dataset.schema.json",
@@ -287,21 +287,15 @@ def errors_many(kind: str, documents: Mapping[str, Any]) -> dict[str, list[tuple
     """Schema errors of many documents of one kind, keyed like ``documents``, for the invalid ones only.
 
     The same verdicts and messages as ``errors`` per document. The fast test runs over all of them in
-    one loop (split over two processes for a large dataset, see tablekeeper.bulk); only the
-    documents it rejects are passed to jsonschema for their JSON pointers.
+    one loop; only the documents it rejects are passed to jsonschema for their JSON pointers.
     """
     keys = list(documents)
     accept = accepts(kind)
     if accept is None:
         rejected = keys
     else:
-        docs = [documents[k] for k in keys]
-
-        def reject(part: Sequence[int]) -> list[int]:
-            return [i for i in part if not accept(docs[i])]
-
         with paused_gc():
-            rejected = [keys[i] for i in split_map(reject, range(len(keys)))]
+            rejected = [k for k in keys if not accept(documents[k])]
     found = {}
     for key in rejected:
         errs = errors(kind, documents[key], fast=False)

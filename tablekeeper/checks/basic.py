@@ -100,9 +100,10 @@ def element_reference_check(ctx: Context) -> Iterator[Finding]:
                           f"{ident} is an element in its reference state, so {fld} is zero by definition; "
                           f"it is {value:g} kJ/mol", species=ident, field=fld, observed=value,
                           expected=0.0, tolerance=0.0, suggestion="set the value to 0")
-    multi = ref & fr["hill"].notna() & fr["hill"].map(
-        lambda h: isinstance(h, str) and len([c for c in h if c.isupper()]) != 1)
-    for ident in fr.index[multi]:
+    # Only the (few) reference-state rows are looked at letter by letter.
+    hills = fr.loc[ref & fr["hill"].notna(), "hill"]
+    multi = hills.map(lambda h: isinstance(h, str) and len([c for c in h if c.isupper()]) != 1)
+    for ident in hills.index[multi.to_numpy(bool)]:
         yield Finding("element-reference", "error",
                       f"{ident} is marked as an element reference state but its formula is not a "
                       "single element", species=ident, field="reference_state")

@@ -92,8 +92,16 @@ class ReactionTable(VirtualTable):
     ]
 
 
-def finding_line(f: Finding) -> str:
+def finding_line(f: Finding, short: bool = False) -> str:
+    """A finding in one line; short: from its numbers (measured, what the species data give, the
+    tolerance), which fit the detail panel where the whole sentence would be cut."""
     mark = "✗" if f.severity == "error" else ("!" if f.severity == "warning" else "i")
+    if short and f.observed is not None and f.expected is not None and f.field in REACTION_QUANTITIES:
+        label, unit, _ = REACTION_QUANTITIES[f.field]
+        tol = f" (tolerance {f.tolerance:.4g})" if f.tolerance is not None else ""
+        unit = f" {unit}" if unit else ""
+        return (f"{mark} {f.check}: measured {label} {f.observed:.6g}, the species data give "
+                f"{f.expected:.6g}{unit}{tol}")
     return f"{mark} {f.check}: {f.message}"
 
 
@@ -172,8 +180,8 @@ class ReactionsScreen(ListScreen):
             lines.append("checking…")
         else:
             found = self.findings_of(ident)
-            lines += [finding_line(f) for f in found] or ["closes with the species data (reaction-closure: "
-                                                          "no finding)"]
+            lines += [finding_line(f, short=True) for f in found] or [
+                "closes with the species data (reaction-closure: no finding)"]
         if r.get("notes"):
             lines.append(f"notes: {r.get('notes')}")
         self.detail.update(lit_lines(lines))

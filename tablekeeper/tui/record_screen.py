@@ -344,18 +344,25 @@ class RecordScreen(TkScreen):
                 self._breaks = cp_breaks(model)
             except InputError as exc:
                 self._result.problems.setdefault(CP_MODEL, exc.reason)
+            except (ValueError, TypeError, ArithmeticError) as exc:  # a damaged file must not close the view
+                self._result.problems.setdefault(CP_MODEL, f"the model cannot be evaluated: {exc}")
         if any(is_cp_path(p) for p in self.edit.texts) and self._result.ok and isinstance(model, Mapping):
             snap = self.tk.snapshot
             self._cp_checks = cp_findings(self._result.record, snap.meta if snap else None)
         if CP_MODEL in self.edit.texts and not self.edit.texts[CP_MODEL].strip():
             return [*rows, _Row("field", path=CP_MODEL)]  # being removed: its parts are not shown
+        # A break row is marked when the cp-continuity check fails: of the edited model while it is being
+        # edited, else of the record as the last check run saw it.
+        if self._cp_checks is not None:
+            jumps = any(f.check == "cp-continuity" for f in self._cp_checks)
+        else:
+            snap = self.tk.snapshot
+            jumps = snap is not None and any(f.check == "cp-continuity" for f in snap.findings_for(self.species_id))
         after: dict[str, list[_Row]] = {}
         for b in self._breaks:
             last = [f.path for f in fields if f.path.startswith(f"{CP_MODEL}.ranges.{b.below}.")]
             if last:
-                bad = any(f.check == "cp-continuity" for f in self._cp_checks) if self._cp_checks is not None \
-                    else bool(self._extra.get(CP_MODEL)) and any("cp-continuity" in x for x in self._extra[CP_MODEL])
-                after[last[-1]] = [_Row("info", break_text(b), CP_MODEL, "error" if bad else "",
+                after[last[-1]] = [_Row("info", break_text(b), CP_MODEL, "error" if jumps else "",
                                         break_cells(b))]
         for f in fields:
             rows.append(_Row("field", path=f.path))

@@ -17,7 +17,7 @@ import pandas as pd
 
 from ..editing import number_text
 from ..model import FIELDS
-from ..text import printable
+from ..text import has_control, printable
 
 #: (key, header lines, cap on width) in display order.
 COLUMNS: tuple[tuple[str, tuple[str, ...], int], ...] = (
@@ -63,6 +63,23 @@ def marks_from(findings: Iterable | None, flags: Mapping[str, Mapping] | None) -
     return Marks(sev, open_flags, blocking)
 
 
+def _longest_number(values: np.ndarray) -> int:
+    """Length of the longest ``number_text`` of finite floats (``repr``, as ``number_text`` writes)."""
+    return max(map(len, map(repr, values.tolist())), default=0)
+
+
+def _longest_text(values: Iterable[object]) -> int:
+    """Length of the longest ``printable`` text of the strings among ``values``."""
+    texts = {v for v in values if isinstance(v, str)}  # phases, statuses, formulas repeat: measure each once
+    if not texts:
+        return 0
+    # ``printable`` only lengthens text that holds control characters: one scan of all texts decides
+    # whether the cheap path (plain lengths) gives the same answer.
+    if has_control(" ".join(texts)):
+        return max(len(printable(v)) for v in texts)
+    return max(map(len, texts))
+
+
 class SpeciesModel:
     """Rows of the species table with the current filter and sort."""
 
@@ -73,14 +90,24 @@ class SpeciesModel:
         self._text = {c: frame[c].to_numpy(dtype=object)
                       for c in ("formula", "phase", "status", "name", "form")}
         self._num = {f: frame[f].to_numpy(dtype="float64") for f in FIELDS}
-        low = (frame.index.to_series().astype(str) + "\n" + frame["formula"].fillna("").astype(str) + "\n"
-               + frame["name"].fillna("").astype(str)).str.lower()
-        self._haystack = pd.Series(low.to_numpy(), dtype=object)
-        self._row_of = {ident: i for i, ident in enumerate(self.ids)}
+        formulas = frame["formula"].fillna("").astype(str).tolist()
+        names = frame["name"].fillna("").astype(str).tolist()
+        # A plain list of lower-case "id\nformula\nname": ``q in s`` over a list of str is several times
+        # faster than pandas' object-dtype ``str.contains`` (no pyarrow here) and copies nothing per search.
+        self._haystack: list[str] = [f"{i}\n{f}\n{m}".lower()
+                                     for i, f, m in zip(map(str, self.ids.tolist()), formulas, names,
+                                                        strict=True)]
+        self._row_of: dict[str, int] = dict(zip(self.ids.tolist(), range(self.n), strict=True))
         self.filter_text = ""
         self.sort_key = "id"
         self.descending = False
         self._sorted: dict[str, np.ndarray] = {}
+        # The last filter's query and the frame rows it matched: typing one more character only searches
+        # the rows that matched before (a longer query can only match fewer rows).
+        self._match_query = ""
+        self._match_rows: np.ndarray | None = None
+        #: Raised by every ``set_marks``, so a view can tell that the marks (and a marks sort) changed.
+        self.marks_serial = 0
         self.set_marks(marks)
         self.widths = self._widths()
         self.order = np.arange(self.n)
@@ -102,6 +129,7 @@ class SpeciesModel:
         self._sev = sev
         self._flag = flag
         self._sorted.pop("marks", None)
+        self.marks_serial += 1
 
     def mark_text(self, row: int) -> str:
         return _MARK[int(self._sev[row])] + {0: " ", 1: "F", 2: "!"}[int(self._flag[row])]
@@ -126,7 +154,10 @@ class SpeciesModel:
         return [self.cell(row, c[0]) for c in COLUMNS]
 
     def _widths(self) -> dict[str, int]:
-        """Column widths: the widest cell (numbers are never cut), text columns capped."""
+        """Column widths: the widest cell (numbers are never cut), text columns capped.
+
+        Made once per load over whole columns; the loops run in C (``map``), not per cell in Python.
+        """
         out = {}
         for key, label, cap in COLUMNS:
             head = max(len(x) for x in label)
@@ -134,13 +165,10 @@ class SpeciesModel:
                 out[key] = 2
             elif key in NUMERIC:
                 col = self._num[key]
-                finite = col[~np.isnan(col)]
-                longest = max((len(number_text(float(v))) for v in finite), default=0)
-                out[key] = max(head, longest)
+                out[key] = max(head, _longest_number(col[~np.isnan(col)]))
             else:
                 values = self.ids if key == "id" else self._text[key]
-                longest = max((len(printable(v)) for v in values if isinstance(v, str)), default=0)
-                out[key] = max(head, min(cap, longest))
+                out[key] = max(head, min(cap, _longest_text(values)))
         return out
 
     # -- filter and sort -------------------------------------------------------------------------------
@@ -155,9 +183,13 @@ class SpeciesModel:
             elif key in NUMERIC:
                 order = np.argsort(self._num[key], kind="stable")  # NaN last
             else:
+                # Case-blind, missing values last, ties in id order. Text columns hold few distinct
+                # values (phases, statuses, formulas): rank the distinct values once (``factorize``
+                # sorts them in code-point order, as ``sorted`` would) and sort the ranks stably.
                 vals = np.array(["\uffff" if not isinstance(v, str) else v.lower() for v in self._text[key]],
                                 dtype=object)
-                order = np.array(sorted(range(self.n), key=vals.__getitem__), dtype=np.int64)
+                codes, _ = pd.factorize(vals, sort=True)
+                order = np.argsort(codes, kind="stable")
             self._sorted[key] = order
         return self._sorted[key]
 
@@ -172,10 +204,25 @@ class SpeciesModel:
                 order = order[::-1]
         q = self.filter_text.strip().lower()
         if q:
-            mask = self._haystack.str.contains(q, regex=False).to_numpy(dtype=bool)
+            mask = np.zeros(self.n, dtype=bool)
+            mask[self._matching_rows(q)] = True
             order = order[mask[order]]
         self.order = order
         return order
+
+    def _matching_rows(self, q: str) -> np.ndarray:
+        """Frame rows whose id, formula or name contains ``q`` (lower case), ascending."""
+        if q == self._match_query and self._match_rows is not None:
+            return self._match_rows
+        hay = self._haystack
+        if self._match_query and self._match_rows is not None and self._match_query in q:
+            rows = self._match_rows
+            hits = np.fromiter((q in hay[i] for i in rows.tolist()), dtype=bool, count=len(rows))
+            found = rows[hits]
+        else:
+            found = np.flatnonzero(np.fromiter((q in h for h in hay), dtype=bool, count=self.n))
+        self._match_query, self._match_rows = q, found
+        return found
 
     def set_filter(self, text: str) -> None:
         self.filter_text = text

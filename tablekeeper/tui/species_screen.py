@@ -39,6 +39,8 @@ class SpeciesScreen(TkScreen):
     def __init__(self) -> None:
         super().__init__()
         self.model: SpeciesModel | None = None
+        self._marks_serial = -1
+        self._detail_text: str | None = None
         self.filter_text = ""
         self.sort_key = "id"
         self.descending = False
@@ -78,13 +80,24 @@ class SpeciesScreen(TkScreen):
         if snap.model is not self.model:
             keep = self.species_id
             self.model = snap.model
+            self._marks_serial = self.model.marks_serial
             self.model.filter_text = self.filter_text
             self.model.sort_key = self.sort_key
             self.model.descending = self.descending
             self.model.apply()
             self._show(keep)
+        elif self.model.marks_serial != self._marks_serial:
+            # The checks arrived: marks changed, and so does the order when the table is sorted by them.
+            self._marks_serial = self.model.marks_serial
+            if self.model.sort_key == "marks":
+                keep = self.species_id
+                self.model.apply()
+                self._show(keep)
+            else:
+                self.table.refresh()
+                self._detail()
         else:
-            self.table.refresh()
+            # Only the state shown in the bar changed (loading, checking): the rows are as they were.
             self._detail()
 
     def _show(self, keep: str | None = None, cursor: int | None = None) -> None:
@@ -105,13 +118,33 @@ class SpeciesScreen(TkScreen):
         self._detail()
 
     def _detail(self) -> None:
+        self._set_detail(self._detail_line())
+
+    def _set_detail(self, text: str) -> None:
+        """Show the detail line; a new layout only when its height changes.
+
+        The line follows the cursor, so it changes on most key presses; a layout pass re-arranges and
+        repaints the whole screen one frame later (a second paint per key press), while the line's own
+        repaint is all a same-height change needs.
+        """
+        old = self._detail_text
+        if text == old:
+            return
         detail = self.query_one("#detail", Static)
+        self._detail_text = text
+        width = detail.content_region.width
+        content = lit(text)
+        # The height textual's layout would give each text (before any max-height cap).
+        same_height = (old is not None and width > 0
+                       and lit(old).get_height(detail.styles, width) == content.get_height(detail.styles, width))
+        detail.update(content, layout=not same_height)
+
+    def _detail_line(self) -> str:
         snap = self.tk.snapshot
         ident = self.species_id
         if snap is None or ident is None or ident not in snap.species:
             n = 0 if self.model is None else len(self.model.order)
-            detail.update(lit(f"{n} shown"))
-            return
+            return f"{n} shown"
         rec = snap.species[ident]
         parts = [printable(ident), printable(display_name(rec))]
         if rec.get("name"):
@@ -125,7 +158,7 @@ class SpeciesScreen(TkScreen):
             parts.append(f"{len(open_flags)} open flag{'s' if len(open_flags) != 1 else ''}"
                          + (" (blocking)" if blocking else ""))
         parts.append(f"{len(self.model.order) if self.model else 0} shown")
-        detail.update(lit("  ·  ".join(parts)))
+        return "  ·  ".join(parts)
 
     # -- events ----------------------------------------------------------------------------------------
 

@@ -16,7 +16,7 @@ from rich.segment import Segment
 from rich.style import Style
 from textual import events
 from textual.binding import Binding, BindingType
-from textual.geometry import Size
+from textual.geometry import Region, Size
 from textual.message import Message
 from textual.reactive import reactive
 from textual.scroll_view import ScrollView
@@ -108,6 +108,7 @@ class VirtualTable(ScrollView, can_focus=True):
         self._style_fn: StyleFn | None = None
         self.header_marks: dict[str, str] = {}  # column key -> mark shown after its title (sort order)
         self.empty_text = ""
+        self._pass_styles: dict[str, Style] | None = None
 
     # -- data ------------------------------------------------------------------------------------------
 
@@ -141,8 +142,16 @@ class VirtualTable(ScrollView, can_focus=True):
         return max(0, min(value, self.count - 1)) if self.count else 0
 
     def watch_cursor(self, old: int, new: int) -> None:
+        top = self.scroll_offset.y
         self._scroll_cursor_into_view()
-        self.refresh()
+        if self.scroll_offset.y == top and old != new:
+            # Only the two rows whose cursor style changed are drawn again (a whole page costs textual
+            # about ten times as much, and sends that much more over a slow link).
+            hh = self.header_height
+            self.refresh_lines(old + hh)
+            self.refresh_lines(new + hh)
+        else:
+            self.refresh()
         self.post_message(self.RowHighlighted(self, new))
 
     def _scroll_cursor_into_view(self) -> None:
@@ -195,12 +204,26 @@ class VirtualTable(ScrollView, can_focus=True):
     # -- drawing ---------------------------------------------------------------------------------------
 
     def _style(self, name: str) -> Style:
-        return self.get_component_rich_style(f"vtable--{name}")
+        pass_styles = self._pass_styles
+        if pass_styles is None:
+            return self.get_component_rich_style(f"vtable--{name}")
+        style = pass_styles.get(name)
+        if style is None:
+            style = pass_styles[name] = self.get_component_rich_style(f"vtable--{name}")
+        return style
+
+    def render_lines(self, crop: Region) -> list[Strip]:
+        # Styles are looked up once per drawing pass, not once per line (each lookup walks the CSS).
+        self._pass_styles = {"": self.rich_style}
+        try:
+            return super().render_lines(crop)
+        finally:
+            self._pass_styles = None
 
     def render_line(self, y: int) -> Strip:
         width = self.size.width
-        scroll_x = round(self.scroll_x)
-        base = self.rich_style
+        scroll_x = self.scroll_offset.x
+        base = self._pass_styles[""] if self._pass_styles is not None else self.rich_style
         hh = self.header_height
         if y < hh:
             style = base + self._style("header")
@@ -213,7 +236,7 @@ class VirtualTable(ScrollView, can_focus=True):
                 cells.append(fit(text, col.width, col.right and y == hh - 1))
             strip = Strip([Segment(" ".join(cells), style)])
             return strip.crop_extend(scroll_x, scroll_x + width, style)
-        row = round(self.scroll_y) + y - hh
+        row = self.scroll_offset.y + y - hh
         if row >= self.count:
             if row == 0 and self.empty_text:
                 dim = base + self._style("dim")

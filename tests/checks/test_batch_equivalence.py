@@ -1,8 +1,8 @@
 """The fast paths of the check catalogue give the report of the reference paths.
 
 Fast: Cp models evaluated in stacked arrays (heat_capacity.BATCH), plain formulas read without molmass
-(formula.FAST_PLAIN), the schema pass split over two processes (bulk.SPLIT). Reference: each model
-through the public per-model classes, every formula through molmass, one process. The dataset is the
+(formula.FAST_PLAIN). Reference: each model through the public per-model classes, every formula through
+molmass. The dataset is the
 benchmark generator's (benchmarks/generate.py), with its seeded faults, plus varied and malformed Cp
 models and schema-invalid records, so that every check has findings to agree on.
 """
@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from tablekeeper import bulk, formula
+from tablekeeper import formula
 from tablekeeper.checks import Context, run
 from tablekeeper.checks import heat_capacity as hc
 from tablekeeper.thermo import model_from_json
@@ -170,7 +170,7 @@ def dataset() -> tuple[dict, dict, dict]:
         if n % 7 == 0:
             rec["phase"] = rng.choice(("aq", "am", "l"))
     _near_thresholds(species, [i for i in ids if i not in set(picked)])
-    for ident in picked[-6:]:  # schema-invalid records: the schema check's findings in both halves
+    for ident in picked[-6:]:  # schema-invalid records: the schema check has findings too
         species[ident]["properties"]["dfH298"]["value"] = "-12.5"
         species[ident]["color"] = "blue"
     sources = {f"src-{i:03d}": {"id": f"src-{i:03d}", "revision": 1, "title": f"Synthetic compilation {i}",
@@ -186,8 +186,6 @@ def _report(monkeypatch: pytest.MonkeyPatch, data: tuple, fast: bool) -> dict:
     meta, species, sources = data
     monkeypatch.setattr(hc, "BATCH", fast)
     monkeypatch.setattr(formula, "FAST_PLAIN", fast)
-    monkeypatch.setattr(bulk, "SPLIT", fast)
-    monkeypatch.setattr(bulk, "SPLIT_MIN_ITEMS", 100)  # make the two-process schema pass happen here
     formula.parse.cache_clear()
     try:
         ctx = Context.from_records(meta, copy.deepcopy(species), sources)

@@ -2,10 +2,9 @@
 
 * ``model.species_frame`` against the row-at-a-time definition it replaced, on hostile records;
 * ``formula.parse`` reading plain formulas itself against molmass reading every formula;
-* ``validation.errors_many`` (one loop, split over two processes) against ``validation.errors`` per
-  document, and the compiled accept-only schema predicate against jsonschema (never accepting what
-  jsonschema refuses, refusing only what it refuses);
-* ``bulk.split_map`` against a plain call, and when its child process fails;
+* ``validation.errors_many`` (one loop) against ``validation.errors`` per document, and the compiled
+  accept-only schema predicate against jsonschema (never accepting what jsonschema refuses, refusing
+  only what it refuses);
 * ``Dataset.load_all`` against ``Dataset.load`` file by file, damaged files included.
 """
 
@@ -19,7 +18,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tablekeeper import bulk, formula, jsonio, validation
+from tablekeeper import formula, jsonio, validation
 from tablekeeper.errors import DamagedFileError, FormulaError
 from tablekeeper.model import FIELDS, FRAME_COLUMNS, species_frame
 from tablekeeper.store import Dataset
@@ -217,10 +216,7 @@ def _species(i: int, bad: bool) -> dict:
     return rec
 
 
-@pytest.mark.parametrize("split", [False, True])
-def test_errors_many_gives_the_verdicts_of_errors(split: bool, monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(bulk, "SPLIT", split)
-    monkeypatch.setattr(bulk, "SPLIT_MIN_ITEMS", 10)
+def test_errors_many_gives_the_verdicts_of_errors() -> None:
     docs = {f"sp{i}": _species(i, bad=i % 7 == 3) for i in range(300)}
     got = validation.errors_many("species", docs)
     want = {k: e for k, d in docs.items() if (e := validation.errors("species", d, fast=False))}
@@ -232,40 +228,6 @@ def test_errors_many_gives_the_verdicts_of_errors(split: bool, monkeypatch: pyte
 def test_errors_many_on_a_kind_with_formats_uses_jsonschema() -> None:
     flags = {"f1": {"id": "f1"}}
     assert validation.errors_many("flags", flags) == {"f1": validation.errors("flags", flags["f1"])}
-
-
-# -- split_map --------------------------------------------------------------------------------------------
-
-
-def _pids(part) -> list[tuple[int, int]]:
-    return [(i * i, os.getpid()) for i in part]
-
-
-def test_split_map_equals_a_plain_call_and_uses_a_second_process(monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(bulk, "SPLIT_MIN_ITEMS", 10)
-    if not bulk._can_fork():
-        pytest.skip("this platform or process cannot fork a worker")
-    out = bulk.split_map(_pids, range(101))
-    assert [v for v, _ in out] == [i * i for i in range(101)]
-    assert {p for _, p in out[:50]} == {os.getpid()}
-    assert {p for _, p in out[50:]} != {os.getpid()}  # the second half came from the child
-
-
-def test_split_map_recomputes_what_a_failed_child_did_not_send(monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(bulk, "SPLIT_MIN_ITEMS", 10)
-    parent = os.getpid()
-
-    def fails_in_the_child(part):
-        if os.getpid() != parent:
-            raise MemoryError("the child ran out of memory")
-        return [i + 1 for i in part]
-
-    assert bulk.split_map(fails_in_the_child, range(40)) == list(range(1, 41))
-
-
-def test_split_map_below_the_threshold_stays_in_process(monkeypatch: pytest.MonkeyPatch) -> None:
-    monkeypatch.setattr(bulk, "SPLIT_MIN_ITEMS", 1000)
-    assert {p for _, p in bulk.split_map(_pids, range(50))} == {os.getpid()}
 
 
 # -- load_all ---------------------------------------------------------------------------------------------

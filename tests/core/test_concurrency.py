@@ -1,4 +1,5 @@
-"""Real processes: two saves of one revision race; a save killed before its rename loses nothing."""
+"""Real processes: two saves of one revision race; a save killed before or after its journal line leaves
+the record and the journal agreeing once the dataset is opened again."""
 
 from __future__ import annotations
 
@@ -11,6 +12,7 @@ from pathlib import Path
 
 import pytest
 
+from tablekeeper.errors import ConflictError
 from tablekeeper.store import Dataset
 
 pytestmark = pytest.mark.timeout(120)
@@ -78,45 +80,93 @@ KILLED = r"""
 import os, sys
 from tablekeeper.store import Dataset
 
-real_replace = os.replace
+step = sys.argv[2]
+real_open, real_replace = os.open, os.replace
+
+def pause(what):
+    print("paused " + what, flush=True)
+    sys.stdin.readline()  # blocks until the parent kills this process
+
+def paused_open(path, *args, **kw):
+    # Stop before the journal append: the temporary file is written and fsynced, nothing journaled.
+    if step == "before-journal" and os.fspath(path).endswith("journal.jsonl"):
+        pause("journal")
+    return real_open(path, *args, **kw)
 
 def paused_replace(src, dst):
-    # Stop right before the rename: the temporary file is written and fsynced, the target untouched.
-    print("paused " + os.fspath(src), flush=True)
-    sys.stdin.readline()  # blocks until the parent kills this process
+    # Stop right before the rename: the journal line is written, the target untouched.
+    if step == "before-rename":
+        pause(os.fspath(src))
     real_replace(src, dst)
 
-os.replace = paused_replace
 ds = Dataset(sys.argv[1])
 rec = ds.load("species", "water-l")
+os.open, os.replace = paused_open, paused_replace
 ds.save("species", dict(rec, name="half-saved"), expected_revision=rec["revision"])
 print("finished", flush=True)
 """
 
 
-def test_a_save_killed_before_its_rename_leaves_the_old_record_whole(dataset: Dataset,
-                                                                    species_record) -> None:
+def _kill_paused(root: Path, step: str) -> str:
+    child = _spawn(KILLED, root, step, user="ann")
+    line = child.stdout.readline().strip()
+    assert line.startswith("paused "), child.stderr.read()
+    child.send_signal(signal.SIGKILL)
+    child.wait(timeout=30)
+    assert child.returncode == -signal.SIGKILL
+    return line.removeprefix("paused ")
+
+
+def test_a_save_killed_before_its_journal_line_leaves_the_old_record_and_journal(dataset: Dataset,
+                                                                                species_record) -> None:
     dataset.save("species", species_record(), expected_revision=None)
     path = dataset.root / "species" / "water-l.json"
     before = path.read_bytes()
     journal_before = (dataset.root / "journal.jsonl").read_bytes()
-    child = _spawn(KILLED, dataset.root, user="ann")
-    line = child.stdout.readline().strip()
-    assert line.startswith("paused "), child.stderr.read()
-    tmp = Path(line.removeprefix("paused "))
-    assert tmp.parent == path.parent and tmp.exists()
-    assert b"half-saved" in tmp.read_bytes()  # the new version is complete, only the rename is missing
-    child.send_signal(signal.SIGKILL)
-    child.wait(timeout=30)
-    assert child.returncode == -signal.SIGKILL
+    _kill_paused(dataset.root, "before-journal")
+    staged = dataset.root / "species" / ".water-l.json.tmp-pending"
+    assert b"half-saved" in staged.read_bytes()  # written, fsynced, never journaled
     assert path.read_bytes() == before
     assert (dataset.root / "journal.jsonl").read_bytes() == journal_before
-    assert tmp.exists()  # still there until someone opens the dataset
-    ds = Dataset(dataset.root)  # the kill released the lock; the open cleans up
-    assert not tmp.exists()
-    assert ds.load("species", "water-l")["name"] == "water"
+    ds = Dataset(dataset.root)  # the kill released the lock; the open discards the unjournaled save
+    assert not staged.exists()
+    assert path.read_bytes() == before
+    assert (dataset.root / "journal.jsonl").read_bytes() == journal_before
     report = ds.load_all("species")
     assert list(report.records) == ["water-l"] and report.damaged == []
     # And the dataset takes the next save normally: the kill released the lock (a held lock would time out).
     assert ds.save("species", dict(ds.load("species", "water-l"), name="after"), expected_revision=1)[
         "revision"] == 2
+
+
+def test_a_save_killed_after_its_journal_line_is_finished_at_the_next_open(dataset: Dataset,
+                                                                          species_record) -> None:
+    dataset.save("species", species_record(), expected_revision=None)
+    path = dataset.root / "species" / "water-l.json"
+    before = path.read_bytes()
+    tmp = Path(_kill_paused(dataset.root, "before-rename"))
+    assert tmp.parent == path.parent and b"half-saved" in tmp.read_bytes()
+    assert path.read_bytes() == before  # killed before the rename
+    last = dataset.journal()[0][-1]
+    assert (last["user"], last["target"], last["revision"]) == ("ann", "species/water-l", 2)
+    ds = Dataset(dataset.root)  # the journal holds the save: the open renames it into place
+    assert not tmp.exists()
+    rec = ds.load("species", "water-l")
+    assert (rec["name"], rec["revision"]) == ("half-saved", 2)
+    entries, problems = ds.journal()
+    assert problems == [] and [e["revision"] for e in entries if e.get("target") == "species/water-l"] == [1, 2]
+
+
+def test_a_dataset_open_before_the_kill_finishes_the_killed_save_before_its_own(dataset: Dataset,
+                                                                                species_record) -> None:
+    """Another process killed after its journal line, while this one had the dataset open: this one's
+    save of the same record first finishes the killed one, then reports the conflict; the journal never
+    holds two saves of one revision."""
+    loaded = dataset.save("species", species_record(), expected_revision=None)
+    _kill_paused(dataset.root, "before-rename")
+    with pytest.raises(ConflictError) as info:
+        dataset.save("species", dict(loaded, name="mine"), expected_revision=1)
+    assert (info.value.found, info.value.theirs["name"]) == (2, "half-saved")
+    revs = [e["revision"] for e in dataset.journal()[0] if e.get("target") == "species/water-l"]
+    assert revs == [1, 2]
+    assert dataset.save("species", dict(info.value.theirs, name="mine"), expected_revision=2)["revision"] == 3

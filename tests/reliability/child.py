@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import json
 import os
+import stat
 import sys
 import time
 
@@ -97,6 +98,80 @@ def saver(root: str, ident: str, note: str) -> None:
     _say({"saved": [ident, new["id"]]})
 
 
+def step_record(ident: str, **extra: object) -> dict:
+    """The small species records of the step-kill tests."""
+    rec = {"id": ident, "formula": "H2O", "phase": "l", "charge": 0, "status": "draft", "properties": {}}
+    rec.update(extra)
+    return rec
+
+
+def _pause_at(step: str, nth: int) -> None:
+    """Replace os functions so that the process stops (blocked on stdin, which the parent never writes)
+    at one boundary of a save: ``journal-open`` (staged, nothing journaled), ``journal-torn`` (half of
+    the journal bytes written), ``replace`` (the ``nth`` rename), ``unlink`` (a delete's unlink),
+    ``dir-fsync`` (renamed, folder not yet fsynced). Prints ``{"paused": step}`` first."""
+    real_open, real_write, real_replace = os.open, os.write, os.replace
+    real_fsync, real_unlink = os.fsync, os.unlink
+    journal_fds: set[int] = set()
+    seen = {"replace": 0}
+
+    def hold() -> None:
+        _say({"paused": step})
+        sys.stdin.readline()
+        time.sleep(3600)
+
+    def p_open(path, flags, *args, **kw):
+        is_journal = os.fspath(path).endswith("journal.jsonl")
+        if is_journal and step == "journal-open":
+            hold()
+        fd = real_open(path, flags, *args, **kw)
+        if is_journal:
+            journal_fds.add(fd)
+        return fd
+
+    def p_write(fd, data):
+        if step == "journal-torn" and fd in journal_fds and len(data) > 1:
+            real_write(fd, bytes(data[: len(data) // 2]))
+            hold()
+        return real_write(fd, data)
+
+    def p_replace(src, dst):
+        seen["replace"] += 1
+        if step == "replace" and seen["replace"] == nth:
+            hold()
+        return real_replace(src, dst)
+
+    def p_fsync(fd):
+        if step == "dir-fsync" and stat.S_ISDIR(os.fstat(fd).st_mode):
+            hold()
+        return real_fsync(fd)
+
+    def p_unlink(path, *args, **kw):
+        if step == "unlink" and not os.path.basename(os.fspath(path)).startswith("."):
+            hold()
+        return real_unlink(path, *args, **kw)
+
+    os.open, os.write, os.replace, os.fsync, os.unlink = p_open, p_write, p_replace, p_fsync, p_unlink
+
+
+def stepkill(root: str, action: str, step: str, nth: int) -> None:
+    """One save, import or delete that stops at ``step`` (see ``_pause_at``) until killed:
+    ``save`` updates water (revision 1), ``save_many`` updates water and ice (revision 1) and creates
+    steam, ``delete`` deletes ice (revision 1)."""
+    ds = Dataset(root)
+    water, ice = ds.load("species", "water"), ds.load("species", "ice")
+    _pause_at(step, nth)
+    if action == "save":
+        ds.save("species", dict(water, notes="saved"), expected_revision=1, reason="step kill")
+    elif action == "save_many":
+        items = [(dict(water, notes="imported"), 1), (dict(ice, notes="imported"), 1),
+                 (step_record("steam", phase="g", notes="imported"), None)]
+        ds.save_many("species", items, reason="step kill")
+    elif action == "delete":
+        ds.delete("species", "ice", expected_revision=1, reason="step kill")
+    _say({"finished": action})
+
+
 def _drop_privileges() -> None:
     """Become another OS user (shared-folder tests). Done after the imports: the interpreter may live
     where that user cannot read."""
@@ -119,6 +194,8 @@ if __name__ == "__main__":
         bigsave(args[0], args[1], int(args[2]))
     elif mode == "saver":
         saver(args[0], args[1], args[2])
+    elif mode == "stepkill":
+        stepkill(args[0], args[1], args[2], int(args[3]))
     else:
         raise SystemExit(f"unknown mode {mode}")
     sys.stdout.flush()

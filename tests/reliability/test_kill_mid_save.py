@@ -3,18 +3,24 @@
 After every kill the record must be exactly the version before or after the save in flight (parsed
 and compared with both candidates, which the child's content function rebuilds), temporary files
 must be gone after the next open, and a torn last journal line must be reported by
-``Dataset.journal()`` and set aside in ``journal.torn`` at the next append. The control run does the
-same with ``SAFETY.atomic = False`` and shows a kill tearing the record itself.
+``Dataset.journal()`` and set aside in ``journal.torn`` at the next append. The journal is the audit
+trail: after the next open its last entry for the record must be the record's revision (never
+behind: a save on disk without its journal line; never ahead: a journal line for a save that is not
+on disk), and every revision the record reached must be journaled. Two control runs show that the
+test catches what it guards against: ``SAFETY.atomic = False`` (write in place) tears the record,
+``SAFETY.journal_first = False`` (rename before the journal append) loses journal lines.
 """
 
 from __future__ import annotations
 
+import itertools
 import json
 import os
 import random
 import signal
 import sys
 import time
+from dataclasses import dataclass
 from pathlib import Path
 
 import pytest
@@ -84,19 +90,33 @@ def _candidates(in_flight: int | None, last_done: int) -> dict[int, dict]:
     return {r: dict(big_record(IDENT, r, POINTS), revision=r) for r in revs}
 
 
-@pytest.mark.timeout(1800)
-@pytest.mark.parametrize("kills", [KILLS, pytest.param(500, marks=pytest.mark.slow)])
-def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers, kills):
-    root = _setup(tmp_path)
+@dataclass
+class KillRun:
+    """What a series of kills did, counted."""
+
+    whole: int = 0  # kills after which the record was the version before or after the save in flight
+    in_flight: int = 0  # kills that landed during a save
+    temp_seen: int = 0  # kills that left a temporary file
+    finished: int = 0  # staged saves with a journal line, renamed into place by the next open
+    discarded: int = 0  # staged saves without a journal line, removed by the next open
+    torn_lines: int = 0
+    simulated: int = 0
+    missing: int = 0  # revisions that reached the disk and never the journal
+    ahead: int = 0  # kills after which the journal ran ahead of the record or out of order
+    behind: int = 0  # kills after which the journal's last entry was older than the record
+
+
+def _kill_rounds(root: Path, child, leftovers, kills: int, safety: str = "") -> KillRun:
     rng = random.Random(SEED)
-    whole = temp_seen = torn_lines = journal_behind = in_flight_kills = simulated = 0
+    run = KillRun()
     cut_revs: set[int] = set()
     journaled: set[int] = set()
+    staged = root / "species" / f".{IDENT}.json.tmp-pending"
     for i in range(kills):
-        in_flight, last_done = _kill_once(root, child, rng, "")
-        in_flight_kills += in_flight is not None
-        left = leftovers(root)
-        temp_seen += bool(left)
+        in_flight, last_done = _kill_once(root, child, rng, safety)
+        run.in_flight += in_flight is not None
+        run.temp_seen += bool(leftovers(root))
+        had_staged = staged.exists()
         raw_journal = (root / store.JOURNAL).read_bytes()
         if i % 5 == 4 and raw_journal.endswith(b"\n") and len(raw_journal) > 2:
             # A kill inside the append's write is rare at random; every fifth round cuts the last line
@@ -107,8 +127,8 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers, kills)
                 cut_revs.add(cut_entry["revision"])
             raw_journal = raw_journal[: start + (len(raw_journal) - start) // 2]
             (root / store.JOURNAL).write_bytes(raw_journal)
-            simulated += 1
-        ds = Dataset(root)  # the next open: recover() removes temporary files
+            run.simulated += 1
+        ds = Dataset(root)  # the next open: recover() finishes or removes what the kill left
         assert leftovers(root) == [], f"kill {i}: temporary files survive the next open: {leftovers(root)}"
         rec = ds.load("species", IDENT)  # raises DamagedFileError on a torn record
         cands = _candidates(in_flight, last_done)
@@ -116,21 +136,25 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers, kills)
             f"kill {i}: record at revision {rec['revision']}, expected one of {sorted(cands)}"
         )
         assert rec == cands[rec["revision"]], f"kill {i}: revision {rec['revision']} is not whole"
-        whole += 1
+        run.whole += 1
+        if had_staged:
+            run.finished += rec["revision"] == in_flight
+            run.discarded += rec["revision"] != in_flight
 
         entries, problems = ds.journal()
-        mine = [e for e in entries if e.get("target") == f"species/{IDENT}"]
-        last = mine[-1]["revision"] if mine else None
-        if last is not None and last != rec["revision"]:
-            # Killed between the rename and the journal append: the record is saved, its journal line
-            # never written. The journal may fall behind (by every such kill), never run ahead.
-            assert last < rec["revision"], (
-                f"kill {i}: journal at revision {last}, record at {rec['revision']}"
-            )
-        journaled |= {e["revision"] for e in mine}
-        journal_behind = len(set(range(2, rec["revision"] + 1)) - journaled - cut_revs)
+        mine = [e["revision"] for e in entries if e.get("target") == f"species/{IDENT}"]
+        last = mine[-1] if mine else None
+        # A revision journaled twice (or going back) is a journal line for a save that never held;
+        # a gap is a save without its line, counted in ``missing``.
+        out_of_order = any(b <= a for a, b in itertools.pairwise(mine))
+        if out_of_order or (last is not None and last > rec["revision"]):
+            run.ahead += 1
+        elif last is not None and last < rec["revision"] and rec["revision"] not in cut_revs:
+            run.behind += 1
+        journaled |= set(mine)
+        run.missing = len(set(range(2, rec["revision"] + 1)) - journaled - cut_revs)
         if raw_journal and not raw_journal.endswith(b"\n"):
-            torn_lines += 1
+            run.torn_lines += 1
             torn = raw_journal[raw_journal.rfind(b"\n") + 1 :]
             assert any("torn last line" in p for p in problems), f"kill {i}: torn line not reported"
             before = (root / store.TORN).read_bytes() if (root / store.TORN).exists() else b""
@@ -142,15 +166,64 @@ def test_killed_saves_leave_old_or_new_record(tmp_path, child, leftovers, kills)
             assert problems == [], f"kill {i}: {problems}"
         if (root / store.JOURNAL).stat().st_size > JOURNAL_CAP:
             (root / store.JOURNAL).write_bytes(b"")
+    return run
+
+
+@pytest.mark.timeout(1800)
+@pytest.mark.parametrize("kills", [KILLS, pytest.param(500, marks=pytest.mark.slow)])
+def test_killed_saves_leave_old_or_new_record_and_the_journal_agreeing(tmp_path, child, leftovers, kills):
+    root = _setup(tmp_path)
+    run = _kill_rounds(root, child, leftovers, kills)
     print(
-        f"{whole} of {kills} kills left the record whole (old or new); {in_flight_kills} landed during a "
-        f"save; {temp_seen} left a temporary file, all removed at the next open; {torn_lines} torn last "
-        f"journal lines ({simulated} of them cut by the test) reported and set aside; {journal_behind} "
-        "saves reached the disk without their journal line (killed between rename and append)"
+        f"{run.whole} of {kills} kills left the record whole (old or new); {run.in_flight} landed during a "
+        f"save; {run.temp_seen} left a temporary file, all settled at the next open ({run.finished} "
+        f"journaled saves renamed into place, {run.discarded} unjournaled ones removed); {run.torn_lines} "
+        f"torn last journal lines ({run.simulated} of them cut by the test) reported and set aside; "
+        f"{run.missing} saves reached the disk without their journal line; the journal ran ahead of the "
+        f"record after {run.ahead} kills and behind it after {run.behind}"
     )
-    assert whole == kills
-    assert torn_lines >= simulated
-    assert in_flight_kills > kills // 2, f"only {in_flight_kills} kills hit a save: the test is not testing"
+    assert run.whole == kills
+    assert run.torn_lines >= run.simulated
+    assert run.in_flight > kills // 2, f"only {run.in_flight} kills hit a save: the test is not testing"
+    assert (run.missing, run.ahead, run.behind) == (0, 0, 0)
+
+
+def _kill_after_rename(root: Path, child) -> None:
+    """Kill a saver of the old order at the moment its rename is seen (the record's inode changes),
+    before its journal line: the targeted kill the control falls back on."""
+    path = root / "species" / f"{IDENT}.json"
+    p = child("bigsave", root, IDENT, POINTS, safety="journal_first=0")
+    p.stdout.readline()
+    ino = os.stat(path).st_ino
+    deadline = time.monotonic() + 5
+    while time.monotonic() < deadline and os.stat(path).st_ino == ino:
+        pass
+    os.kill(p.pid, signal.SIGKILL)
+    _drain(p)
+
+
+@pytest.mark.timeout(600)
+def test_control_rename_before_journal_loses_journal_lines(tmp_path, child, leftovers):
+    """The same kills with ``SAFETY.journal_first = False`` (rename, fsync the folder, then append the
+    journal line, the order before write-ahead): some saves reach the disk without their journal line.
+    Should the random kills all miss that window, up to 20 kills aimed at it follow."""
+    root = _setup(tmp_path)
+    run = _kill_rounds(root, child, leftovers, KILLS, safety="journal_first=0")
+    targeted = tries = 0
+    while run.missing + run.behind + targeted == 0 and tries < 20:
+        tries += 1
+        before = Dataset(root).load("species", IDENT)["revision"]
+        _kill_after_rename(root, child)
+        ds = Dataset(root)
+        revs = [e["revision"] for e in ds.journal()[0] if e.get("target") == f"species/{IDENT}"]
+        targeted += ds.load("species", IDENT)["revision"] > before and before + 1 not in revs
+    print(
+        f"control, rename before journal: {run.missing} of {KILLS} random kills left a save without its "
+        f"journal line (the journal behind the record after {run.behind}); {targeted} of {tries} "
+        "targeted kills did"
+    )
+    assert run.ahead == 0
+    assert run.missing + run.behind + targeted > 0, "no kill lost a journal line: the test cannot fail"
 
 
 def _torn_record(root: Path, in_flight: int | None, last_done: int) -> bool:

@@ -1,6 +1,7 @@
 """A stateful model test of the store: random sequences of creates, edits, stale edits, deletes, flags
-raised and resolved, reopening, and simulated crashes (a leftover temporary file, a torn journal line)
-against an in-memory model.
+raised and resolved, reopening, and simulated crashes (a leftover temporary file, a torn journal line,
+a save or delete stopped dead before its journal line, before its rename or unlink, or before its
+folder fsync, then the next open) against an in-memory model.
 
 After every step the records on disk equal the model, and replaying the journal's field-level changes
 (dotted field paths, old and new values) from nothing rebuilds the model; every ``old`` value in the
@@ -9,10 +10,13 @@ journal must equal what the replay holds at that point.
 
 from __future__ import annotations
 
+import contextlib
+import os
 import shutil
 import tempfile
 from pathlib import Path
 from typing import ClassVar
+from unittest import mock
 
 import pytest
 from hypothesis import HealthCheck, settings
@@ -94,6 +98,30 @@ def replay(entries: list[dict]) -> dict[str, dict]:
             assert not rec, f"{target}: fields left after its delete: {rec}"
             del state[target]
     return state
+
+
+class _Killed(BaseException):
+    """Stands for SIGKILL inside a save: raised by a replaced os function, with the rollback and the
+    clean-up switched off, it leaves the files as a kill at that point would (the lock is released, as
+    the kernel releases it for a killed process)."""
+
+
+def _kill(*_args: object, **_kw: object) -> None:
+    raise _Killed
+
+
+def _killed_at(step: str) -> contextlib.ExitStack:
+    stack = contextlib.ExitStack()
+    stack.enter_context(mock.patch.object(Dataset, "_rollback", lambda *a, **k: None))
+    stack.enter_context(mock.patch.object(Dataset, "_forget", staticmethod(lambda kept: None)))
+    if step == "before-journal":
+        stack.enter_context(mock.patch.object(Dataset, "_append_line", _kill))
+    elif step == "before-rename":
+        stack.enter_context(mock.patch.object(os, "replace", _kill))
+        stack.enter_context(mock.patch.object(os, "unlink", _kill))
+    else:
+        stack.enter_context(mock.patch.object(store, "_fsync_dir", _kill))
+    return stack
 
 
 class StoreMachine(RuleBasedStateMachine):
@@ -225,6 +253,28 @@ class StoreMachine(RuleBasedStateMachine):
         with open(self.ds.root / store.JOURNAL, "ab") as fh:
             fh.write(_TORN + garbage)
         self.torn_pending = True
+
+    @precondition(lambda self: self.species)
+    @rule(data=st.data(), op=st.sampled_from(["save", "delete"]),
+          step=st.sampled_from(["before-journal", "before-rename", "before-fsync"]))
+    def killed_mid_change(self, data, op: str, step: str) -> None:
+        """A change stopped dead at ``step``, then the next open: a change whose journal line was written
+        is finished, any other is discarded."""
+        ident = data.draw(st.sampled_from(sorted(self.species)))
+        old = self.species[ident]
+        with _killed_at(step), pytest.raises(_Killed):
+            if op == "save":
+                self.ds.save("species", dict(old, notes=f"killed {step}"), expected_revision=old["revision"])
+            else:
+                self.ds.delete("species", ident, expected_revision=old["revision"])
+        self.ds = Dataset(self.ds.root)  # the next open
+        assert not [p for p in self.ds.root.rglob("*") if store._TMP_MARK in p.name]
+        if step != "before-journal":  # journaled: the change holds
+            if op == "save":
+                self.species[ident] = dict(old, notes=f"killed {step}", revision=old["revision"] + 1)
+            else:
+                del self.species[ident]
+            self.torn_pending = False
 
     @rule()
     def recover(self) -> None:

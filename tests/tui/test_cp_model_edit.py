@@ -309,3 +309,27 @@ async def test_a_reviewer_sees_the_model_but_cannot_change_it(demo_copy: Path) -
         await pilot.pause()
         assert app.screen is screen and screen.edit.dirty == []
     assert Dataset(demo_copy).load("species", "no-g")["revision"] == 1
+
+
+async def test_a_flag_on_the_model_marks_blocking_with_a_character_not_a_colour(
+        demo_copy: Path, monkeypatch: pytest.MonkeyPatch) -> None:
+    from tablekeeper.tui.dialogs import FlagDialog
+
+    monkeypatch.setenv("NO_COLOR", "1")
+    app = create_app(demo_copy)
+    async with app.run_test(size=SIZE) as pilot:
+        await loaded(pilot)
+        screen = await open_by_keys(pilot, app, "no-g")
+        await cursor_to(pilot, screen, A1_PATH)
+        await pilot.press("ctrl+f")
+        await until(pilot, app, lambda: isinstance(app.screen, FlagDialog))
+        assert app.screen.field == "cp_model"
+        assert "[ ] blocking" in screen_text(app) and "[x]" not in screen_text(app)
+        await type_text(pilot, "jump at 1000 K")
+        await pilot.press("tab", "space")
+        assert "[x] blocking" in screen_text(app)
+        await pilot.press("ctrl+s")
+        await until(pilot, app, lambda: app.screen is screen and any(
+            f.get("field") == "cp_model" for f in app.snapshot.flags.values()))
+    (flag,) = [f for f in Dataset(demo_copy).load_all("flags").records.values() if f["species"] == "no-g"]
+    assert flag["field"] == "cp_model" and flag["blocking"] is True and flag["note"] == "jump at 1000 K"
