@@ -981,7 +981,7 @@ def _reaction_number(text: str, key: str) -> tuple[float, str | None]:
         raise ValueError(exc.reason) from None
     if factor == 1.0:
         return float(entered), None
-    value = float(f"{canonical:.15g}")  # 15 digits: no binary noise from the factor 4.184
+    value = canonical  # parse_quantity converts through units.scale: the exact decimal product
     return value, f"= {number_text(value)} kJ/mol (typed {number_text(float(entered))} {unit})"
 
 

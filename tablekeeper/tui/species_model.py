@@ -80,6 +80,29 @@ def _longest_text(values: Iterable[object]) -> int:
     return max(map(len, texts))
 
 
+def _text_order(values: np.ndarray) -> np.ndarray:
+    """Row positions of a text column sorted case-blind, rows without text last, ties in row order.
+
+    Phases and statuses repeat a few values: those are found by hashing (in C), only they are lowered
+    and sorted in Python, and the rows are sorted stably by the rank of their value. A column of mostly
+    distinct values (formulas) is sorted directly, which is then the cheaper way.
+    """
+    is_text = np.fromiter((isinstance(v, str) for v in values), dtype=bool, count=len(values))
+    rows = np.flatnonzero(is_text)
+    texts = values[rows]
+    codes, uniques = pd.factorize(texts)
+    if len(uniques) * 2 > len(texts):
+        keys = [v.lower() for v in texts]
+        ranked = np.array(sorted(range(len(keys)), key=keys.__getitem__), dtype=np.int64)
+    else:
+        keys = [v.lower() for v in uniques]
+        # Dense ranks of the keys: distinct values with one key ("CO", "co") tie, as in a plain sort.
+        rank_of = {k: r for r, k in enumerate(sorted(set(keys)))}
+        ranks = np.fromiter((rank_of[k] for k in keys), dtype=np.int64, count=len(keys))
+        ranked = np.argsort(ranks[codes], kind="stable")
+    return np.concatenate([rows[ranked], np.flatnonzero(~is_text)])
+
+
 class SpeciesModel:
     """Rows of the species table with the current filter and sort."""
 
@@ -183,13 +206,7 @@ class SpeciesModel:
             elif key in NUMERIC:
                 order = np.argsort(self._num[key], kind="stable")  # NaN last
             else:
-                # Case-blind, missing values last, ties in id order. Text columns hold few distinct
-                # values (phases, statuses, formulas): rank the distinct values once (``factorize``
-                # sorts them in code-point order, as ``sorted`` would) and sort the ranks stably.
-                vals = np.array(["\uffff" if not isinstance(v, str) else v.lower() for v in self._text[key]],
-                                dtype=object)
-                codes, _ = pd.factorize(vals, sort=True)
-                order = np.argsort(codes, kind="stable")
+                order = _text_order(self._text[key])
             self._sorted[key] = order
         return self._sorted[key]
 

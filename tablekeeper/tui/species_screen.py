@@ -58,6 +58,10 @@ class SpeciesScreen(TkScreen):
         self.ready = True
         self.query_one("#filter", Input).cursor_blink = False
         self.table.focus()
+        # The detail line follows the cursor in the same turn as the cursor itself (a watcher runs at
+        # once; a RowHighlighted message would arrive after the table was painted and cost a second
+        # paint per key press).
+        self.watch(self.table, "cursor", self._cursor_moved, init=False)
         self.data_changed()
 
     @property
@@ -174,8 +178,7 @@ class SpeciesScreen(TkScreen):
     def on_filter_submitted(self, event: Input.Submitted) -> None:
         self.table.focus()
 
-    @on(VirtualTable.RowHighlighted, "#species-table")
-    def on_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
+    def _cursor_moved(self, old: int, new: int) -> None:
         self._detail()
 
     @on(VirtualTable.RowSelected, "#species-table")

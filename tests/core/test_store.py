@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from tablekeeper import flags, jsonio, validation
+from tablekeeper import flags, jsonio, store, validation
 from tablekeeper.errors import (
     ConflictError,
     DamagedFileError,
@@ -381,9 +381,96 @@ def test_a_failed_write_leaves_the_old_record_and_no_temporary_file(dataset: Dat
     def broken_replace(src: object, dst: object) -> None:
         raise OSError(28, "No space left on device")
 
+    journal = (dataset.root / "journal.jsonl").read_bytes()
     monkeypatch.setattr(os, "replace", broken_replace)
     with pytest.raises(OSError):
         dataset.save("species", species_record(name="new"), expected_revision=1)
     monkeypatch.undo()
     assert path.read_bytes() == before
     assert sorted(os.listdir(path.parent)) == [".keep", "water-l.json"]
+    # The journal line is written before the rename; the failed rename takes it back.
+    assert (dataset.root / "journal.jsonl").read_bytes() == journal
+
+
+@pytest.mark.parametrize("action", ["save", "delete"])
+def test_an_error_after_the_change_puts_the_file_back_and_takes_the_journal_line_back(
+        action: str, dataset: Dataset, species_record, monkeypatch: pytest.MonkeyPatch) -> None:
+    dataset.save("species", species_record(), expected_revision=None)
+    path = dataset.root / "species" / "water-l.json"
+    before = (path.read_bytes(), (dataset.root / "journal.jsonl").read_bytes())
+
+    def broken_fsync(folder: Path) -> None:  # the folder fsync, after the rename or the unlink
+        raise OSError(5, "Input/output error")
+
+    monkeypatch.setattr(store, "_fsync_dir", broken_fsync)
+    with pytest.raises(OSError):
+        if action == "save":
+            dataset.save("species", species_record(name="new"), expected_revision=1)
+        else:
+            dataset.delete("species", "water-l", expected_revision=1)
+    monkeypatch.undo()
+    assert (path.read_bytes(), (dataset.root / "journal.jsonl").read_bytes()) == before
+    assert sorted(os.listdir(path.parent)) == [".keep", "water-l.json"]
+
+
+def test_an_import_naming_a_record_twice_is_refused(dataset: Dataset, species_record) -> None:
+    before = (dataset.root / "journal.jsonl").read_bytes()
+    with pytest.raises(InputError, match="record water-l: appears twice in one import"):
+        dataset.save_many("species", [(species_record(), None), (species_record(name="again"), None)],
+                          reason="import")
+    assert dataset.ids("species") == []
+    assert (dataset.root / "journal.jsonl").read_bytes() == before
+
+
+class _Killed(BaseException):
+    """Stands for SIGKILL: raised inside a save with the rollback switched off."""
+
+
+def _kill_before_rename(dataset: Dataset, monkeypatch: pytest.MonkeyPatch, record: dict) -> None:
+    """A save stopped dead after its journal line, before its rename (the files a kill leaves there)."""
+    def killed(*args: object) -> None:
+        raise _Killed
+
+    monkeypatch.setattr(os, "replace", killed)
+    monkeypatch.setattr(Dataset, "_rollback", lambda *args: None)
+    monkeypatch.setattr(Dataset, "_forget", staticmethod(lambda kept: None))
+    with pytest.raises(_Killed):
+        dataset.save("species", record, expected_revision=record["revision"] - 1)
+    monkeypatch.undo()
+
+
+def test_a_journaled_staged_save_is_renamed_into_place_at_the_next_open(
+        dataset: Dataset, species_record, monkeypatch: pytest.MonkeyPatch) -> None:
+    dataset.save("species", species_record(), expected_revision=None)
+    _kill_before_rename(dataset, monkeypatch, species_record(name="staged", revision=2))
+    staged = dataset.root / "species" / ".water-l.json.tmp-pending"
+    assert staged.exists() and dataset.load("species", "water-l")["name"] == "water"
+    assert dataset.journal()[0][-1]["revision"] == 2
+    ds = Dataset(dataset.root)
+    assert not staged.exists()
+    assert ds.load("species", "water-l") == species_record(name="staged", revision=2)
+    assert [p.name for p in (dataset.root / "species").iterdir() if ".tmp-" in p.name] == []
+
+
+@pytest.mark.parametrize("tamper", ["not-the-next-revision", "journal-line-cut", "a-link"])
+def test_a_staged_file_that_does_not_match_the_journal_is_removed_not_renamed(
+        tamper: str, dataset: Dataset, species_record, monkeypatch: pytest.MonkeyPatch, tmp_path: Path) -> None:
+    dataset.save("species", species_record(), expected_revision=None)
+    path = dataset.root / "species" / "water-l.json"
+    before = path.read_bytes()
+    _kill_before_rename(dataset, monkeypatch, species_record(name="staged", revision=2))
+    staged = dataset.root / "species" / ".water-l.json.tmp-pending"
+    journal = dataset.root / "journal.jsonl"
+    if tamper == "not-the-next-revision":
+        staged.write_bytes(jsonio.dumps(species_record(name="staged", revision=3)))
+    elif tamper == "journal-line-cut":  # killed inside the append: the line is torn, not an entry
+        raw = journal.read_bytes()
+        journal.write_bytes(raw[: len(raw) - 20])
+    else:  # a link planted under the staged name must never be followed or moved into place
+        outside = tmp_path / "outside.json"
+        outside.write_bytes(jsonio.dumps(species_record(name="staged", revision=2)))
+        staged.unlink()
+        staged.symlink_to(outside)
+    Dataset(dataset.root)
+    assert not staged.exists() and not staged.is_symlink()
+    assert path.read_bytes() == before

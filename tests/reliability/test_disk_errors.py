@@ -206,3 +206,27 @@ def test_full_tmpfs_refuses_saves_and_keeps_previous_files(tmp_path, make_specie
         assert c_damaged > 0, "writing in place on a full disk damaged nothing: the test cannot fail"
     finally:
         subprocess.run(["umount", str(mnt)], capture_output=True, timeout=10)
+
+
+@pytest.mark.parametrize("err", [errno.EIO, errno.EACCES])
+def test_a_delete_whose_unlink_fails_leaves_the_record_and_no_journal_line(tmp_path, monkeypatch, make_species,
+                                                                          err):
+    """The delete's journal line is written before the unlink; an unlink that fails takes it back (the
+    injection above covers write, fsync and rename; unlink is the step only a delete makes)."""
+    root = _pristine(tmp_path, make_species)
+    before = _snapshot(root)
+    ds = Dataset(root)
+    real_unlink = os.unlink
+    record = str(root / "species" / "ice.json")
+
+    def failing_unlink(path, *args, **kw):
+        if os.fspath(path) == record:
+            raise OSError(err, os.strerror(err))
+        return real_unlink(path, *args, **kw)
+
+    monkeypatch.setattr(os, "unlink", failing_unlink)
+    with pytest.raises(OSError):
+        ds.delete("species", "ice", expected_revision=1)
+    monkeypatch.undo()
+    assert _snapshot(root) == before
+    assert Dataset(root).load("species", "ice")["revision"] == 1

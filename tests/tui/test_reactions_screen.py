@@ -147,7 +147,9 @@ async def test_fault_15_is_fixed_by_typing_the_measured_value(demo_copy: Path) -
         screen = await open_reactions(pilot, app)
         await cursor_to(pilot, screen, LEGACY)
         text = " ".join(screen_text(app).split())
-        assert "E hydrogen-combus…" in text and "✗ reaction-closure: reaction hydrogen-combustion-legacy" in text
+        assert "E hydrogen-combus…" in text
+        assert (f"✗ reaction-closure: measured ΔrH° {DFH_WATER_L:g}, the species data give "
+                f"{2 * DFH_WATER_L:g} kJ/mol") in text
         await pilot.press("enter")
         await until(pilot, app, lambda: isinstance(app.screen, ReactionDialog))
         dialog = app.screen
