@@ -112,6 +112,7 @@ class ReactionsScreen(ListScreen):
     ENTRY = "reactions"
     TITLE_TEXT = "Measured reactions"
     TABLE_ID = "reactions-table"
+    ITEMS_NAME = "reactions"
     DETAIL_ID = "reaction-detail"
     TABLE_CLASS = ReactionTable
     BINDINGS: ClassVar[list[BindingType]] = [
@@ -190,25 +191,18 @@ class ReactionsScreen(ListScreen):
     def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
         self.action_edit()
 
-    def _may_edit(self) -> bool:
-        if self.tk.may("edit"):
-            return True
-        self.tk.notify(f"user {self.tk.user} may not edit reactions (the steward role edits)",
-                       severity="error", markup=False)
-        return False
-
     def action_edit(self) -> None:
         r = self.current
-        if r is not None and self._may_edit():
+        if r is not None and self.may_edit():
             self.app.push_screen(ReactionDialog(r))
 
     def action_new(self) -> None:
-        if self._may_edit():
+        if self.may_edit():
             self.app.push_screen(ReactionDialog(None))
 
     def action_delete(self) -> None:
         r = self.current
-        if r is None or not self._may_edit():
+        if r is None or not self.may_edit():
             return
         ident = str(r.get("id"))
         ds = self.tk.dataset

@@ -33,6 +33,7 @@ class SourcesScreen(ListScreen):
     ENTRY = "sources"
     TITLE_TEXT = "Sources"
     TABLE_ID = "sources-table"
+    ITEMS_NAME = "sources"
     DETAIL_ID = "source-detail"
     BINDINGS: ClassVar[list[BindingType]] = [
         Binding("escape", "back", "Back", id="sources.back"),
@@ -93,20 +94,13 @@ class SourcesScreen(ListScreen):
     def on_row_selected(self, event: VirtualTable.RowSelected) -> None:
         self.action_edit()
 
-    def _may_edit(self) -> bool:
-        if self.tk.may("edit"):
-            return True
-        self.tk.notify(f"user {self.tk.user} may not edit sources (the steward role edits)",
-                       severity="error", markup=False)
-        return False
-
     def action_new(self) -> None:
-        if self._may_edit():
+        if self.may_edit():
             self.app.push_screen(SourceDialog(None))
 
     def action_edit(self) -> None:
         s = self.current
-        if s is not None and self._may_edit():
+        if s is not None and self.may_edit():
             self.app.push_screen(SourceDialog(s))
 
 

@@ -83,6 +83,17 @@ class ListScreen(TkScreen):
     def show_detail(self) -> None:
         raise NotImplementedError
 
+    #: What the list holds, for the refusal message of ``may_edit``.
+    ITEMS_NAME = "records"
+
+    def may_edit(self) -> bool:
+        """True when the user holds the edit role; else say so and return False."""
+        if self.tk.may("edit"):
+            return True
+        self.tk.notify(f"user {self.tk.user} may not edit {self.ITEMS_NAME} (the steward role edits)",
+                       severity="error", markup=False)
+        return False
+
     def on_virtual_table_row_highlighted(self, event: VirtualTable.RowHighlighted) -> None:
         if event.table.id == self.TABLE_ID:
             self.show_detail()

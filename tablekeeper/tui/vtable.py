@@ -68,7 +68,8 @@ class VirtualTable(ScrollView, can_focus=True):
         Binding("enter", "select", "Open", id="table.select"),
     ]
 
-    cursor = reactive(0, always_update=True, init=False)
+    # No repaint by the reactive itself: watch_cursor decides what to draw again.
+    cursor = reactive(0, always_update=True, init=False, repaint=False)
 
     class RowHighlighted(Message):
         def __init__(self, table: VirtualTable, row: int) -> None:
