@@ -1,8 +1,11 @@
 """The species table as shown: columns, marks, filter and sort over the core's species frame.
 
 No textual here: the model turns ``tablekeeper.model.species_frame`` plus the check report and the flags
-into the rows the virtual table draws. Filtering and sorting work on whole numpy columns and yield an
-array of row positions, so a key press costs the same at 100k rows as at 100; cell texts are made only
+into the rows the virtual table draws. It is built once per load, in the loading worker: columns are
+taken from the frame whole, column widths measured over whole columns, and the filter's search text
+made once. Filtering and sorting yield an array of row positions: a column's sort order is computed
+the first time it is asked for and kept, and typing one more character into the filter searches only
+the rows the shorter query matched; moving the cursor costs nothing here, and cell texts are made only
 for the rows on screen. Numbers are shown with ``editing.number_text`` (shortest text that reads back
 as the stored float).
 """
@@ -90,11 +93,12 @@ def _text_order(values: np.ndarray) -> np.ndarray:
     is_text = np.fromiter((isinstance(v, str) for v in values), dtype=bool, count=len(values))
     rows = np.flatnonzero(is_text)
     texts = values[rows]
-    codes, uniques = pd.factorize(texts)
-    if len(uniques) * 2 > len(texts):
+    sample = texts[:2000]  # enough to tell a column of few values from one of mostly distinct ones
+    if len(pd.unique(sample)) * 2 > len(sample):
         keys = [v.lower() for v in texts]
         ranked = np.array(sorted(range(len(keys)), key=keys.__getitem__), dtype=np.int64)
     else:
+        codes, uniques = pd.factorize(texts)
         keys = [v.lower() for v in uniques]
         # Dense ranks of the keys: distinct values with one key ("CO", "co") tie, as in a plain sort.
         rank_of = {k: r for r, k in enumerate(sorted(set(keys)))}

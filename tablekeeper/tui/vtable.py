@@ -3,7 +3,8 @@
 The stock DataTable builds every row up front (seconds for 10k rows); this widget asks its owner for
 the cells of a row only when that row is drawn (textual's line API: ``render_line`` returns a Strip).
 Cells are plain strings made printable by the owner; they become Segments, which the terminal shows
-literally, so data never passes through a markup parser here.
+literally, so data never passes through a markup parser here. A cursor move that does not scroll draws
+only the two rows whose look changed.
 """
 
 from __future__ import annotations
