@@ -44,7 +44,9 @@ from .errors import (
     PermissionDenied,
 )
 
-SLUG = re.compile(r"^[a-z0-9][a-z0-9._-]{0,63}\Z")
+# A slug, and not a name Windows reserves for a device (con, nul, com1, ...): a dataset is shared through
+# git, and such a file name breaks a checkout there.
+SLUG = re.compile(r"^(?!(?:con|prn|aux|nul|com[0-9]|lpt[0-9])(?:\.|\Z))[a-z0-9][a-z0-9._-]{0,63}\Z")
 KINDS = ("species", "sources", "reactions", "flags", "releases")
 LOCK_NAME = ".tablekeeper.lock"
 JOURNAL = "journal.jsonl"
@@ -89,7 +91,8 @@ def check_id(ident: Any, what: str = "identifier") -> str:
     if not isinstance(ident, str) or not SLUG.match(ident) or ident in (".", ".."):
         shown = repr(ident)[:80]
         raise IdentifierError(f"{shown} is not a valid {what}: use 1 to 64 of a-z, 0-9, '.', '_', '-', "
-                              "starting with a letter or digit", field="id")
+                              "starting with a letter or digit and not a device name such as con or nul",
+                              field="id")
     return ident
 
 

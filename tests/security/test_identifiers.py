@@ -257,6 +257,7 @@ def test_no_identifier_escapes_the_dataset(tmp_path, capsys):
     )
     assert not escaped, escaped[:20]
     assert not crashes, crashes[:20]
+    assert not windows, f"Windows device names must be refused: {windows}"
 
 
 @pytest.mark.timeout(60)
