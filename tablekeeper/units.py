@@ -17,8 +17,8 @@ import math
 import re
 from dataclasses import dataclass
 
-
 from .errors import UnitError
+
 
 #: The one registry. Built once; pint registries are slow to construct.
 @functools.cache

@@ -496,28 +496,24 @@ def thermo_text(species: Mapping[str, Mapping], step: float = THERMO_STEP_K,
                 tick: Callable[[int], None] | None = None) -> str:
     """thermo_table.csv as text, written straight from each species' block of derived values (the table
     is the largest of a bundle; no row dictionaries are built for it)."""
-    from ..thermo import default_grid, derived_table, model_from_json
+    from ..thermo.batch import derived_tables
 
     table = TABLE_BY_NAME["thermo_table"]
-    cols = ("T_K", "Cp_J_per_molK", "S_J_per_molK", "H_minus_H298_kJ_per_mol", "G_minus_H298_kJ_per_mol")
     parts = [_header_line(table)]
+    picked = []  # (position among all species, for the progress ticks; identifier)
     for n, ident in enumerate(sorted(species)):
+        rec = species[ident]
+        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
+        if isinstance(rec.get("cp_model"), dict) and isinstance(props.get("S298"), dict):
+            picked.append((n, ident))
+    # One batched evaluation for every species (the same floats as thermo.derived_table per species).
+    results = derived_tables([species[ident] for _, ident in picked], step)
+    for (n, ident), result in zip(picked, results, strict=True):
         if tick is not None:
             tick(n)
-        rec = species[ident]
-        model_json = rec.get("cp_model")
-        props = rec.get("properties") if isinstance(rec.get("properties"), dict) else {}
-        if not isinstance(model_json, dict) or not isinstance(props.get("S298"), dict):
+        if result is None or not result.tmin <= 298.15 <= result.tmax:
             continue
-        try:
-            model = model_from_json(model_json)
-            if not model.tmin <= 298.15 <= model.tmax:
-                continue
-            frame = derived_table(rec, default_grid(model, step))
-        except InputError:
-            continue
-        block = frame.to_numpy(dtype="float64") if tuple(frame.columns) == cols else \
-            frame.loc[:, list(cols)].to_numpy(dtype="float64")
+        block = result.values
         if not math.isfinite(float(block.sum())):
             raise InputError("the derived thermodynamic table holds a value that is not finite",
                              file=table.path, record=ident, field="cp_model")

@@ -131,7 +131,8 @@ def duplicate_check(ctx: Context) -> Iterator[Finding]:
     dup = key[key.duplicated(keep=False)]
     if dup.empty:
         return
-    rows = fr.loc[dup.index, ["formula", "phase", "form"]].to_dict("index")
+    rows = fr.loc[dup.index, ["formula", "phase", "form", "name", "dfH298", "u_dfH298", "S298",
+                              "u_S298"]].to_dict("index")
     for _, members in dup.groupby(dup, sort=True):
         ids = list(members.index)
         for ident in ids:
@@ -139,7 +140,33 @@ def duplicate_check(ctx: Context) -> Iterator[Finding]:
             shown = ", ".join(others[:5]) + (f" and {len(others) - 5} more" if len(others) > 5 else "")
             row = rows[ident]
             form = f", form {row['form']}" if isinstance(row["form"], str) else ""
-            yield Finding("duplicate", "error",
-                          f"{row['formula']}({row['phase']}{form}) is also recorded as {shown}",
-                          species=ident, field="formula",
+            what = f"{row['formula']}({row['phase']}{form}) is also recorded as {shown}"
+            if all(_distinct_substances(row, rows[m]) for m in others):
+                # Different names and values that disagree: most likely isomers (butane and
+                # isobutane are both C4H10(g)), which need a form label rather than a deletion.
+                yield Finding("duplicate", "warning",
+                              f"{what}, under another name and with other values: if these are isomers "
+                              "or polymorphs, give each a form label", species=ident, field="form",
+                              suggestion="give each record a distinct form label, e.g. n-butane, isobutane")
+                continue
+            yield Finding("duplicate", "error", what, species=ident, field="formula",
                           suggestion="deprecate or delete one record, or give each a distinct form label")
+
+
+def _distinct_substances(a: dict, b: dict) -> bool:
+    """True when two records of one formula and phase look like different substances: both named,
+    with different names, and their ΔfH° or S° differ by more than twice the larger of their
+    standard uncertainty and 1 kJ/mol or 1 J/(mol·K) (so a re-entry of one substance with the same
+    values, whatever its name, stays an error)."""
+    na, nb = a.get("name"), b.get("name")
+    if not (isinstance(na, str) and isinstance(nb, str)) or na.strip().lower() == nb.strip().lower():
+        return False
+    for fld, floor in (("dfH298", 1.0), ("S298", 1.0)):
+        va, vb = a.get(fld), b.get(fld)
+        if va is None or vb is None or va != va or vb != vb:  # NaN: not given
+            continue
+        ua, ub = a.get(f"u_{fld}"), b.get(f"u_{fld}")
+        u = max(x for x in (ua, ub, floor) if x is not None and x == x)
+        if abs(va - vb) > 2 * u:
+            return True
+    return False

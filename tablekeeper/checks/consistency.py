@@ -46,6 +46,28 @@ def _number(v: Any, default: float, lo: float, hi: float) -> float:
     return default
 
 
+#: Standard uncertainties assumed for a value that states none, in canonical units. Evaluated
+#: compilations give their values with overall uncertainties of roughly 8 to 80 units of the last
+#: digit (NBS tables, 1982, introduction; from memory), i.e. about 0.8 to 8 kJ/mol for values given to
+#: 0.1 kJ/mol; 1 kJ/mol and 1 J/(mol·K) sit at the strict end of that range. Without an assumption the
+#: tolerance would be the rounding alone and a table without uncertainties would raise an error on
+#: about one row in seven of a published handbook table. The `uncertainty` check still warns about each
+#: value that states none. A dataset changes these through policy.assumed_uncertainty.
+ASSUMED_UNCERTAINTY = {"dfH298": 1.0, "dfG298": 1.0, "S298": 1.0, "Cp298": 1.0}
+
+
+def assumed_uncertainty(ctx: Context, fld: str) -> float:
+    """The standard uncertainty assumed for ``fld`` where a value states none (dataset policy)."""
+    pol = policy(ctx).get("assumed_uncertainty")
+    given = pol.get(fld) if isinstance(pol, dict) else None
+    return _number(given, ASSUMED_UNCERTAINTY[fld], 0.0, 1e6)
+
+
+def _stated_or_assumed(col: pd.Series, assumed: float) -> np.ndarray:
+    u = col.to_numpy(float)
+    return np.where(np.isfinite(u), u, assumed)
+
+
 def coverage_k(ctx: Context) -> float:
     """Coverage factor k for tolerances: dataset policy ``tolerance_k``, default 2 (about 95 %)."""
     return _number(policy(ctx).get("tolerance_k"), 2.0, 1.0, 10.0)
@@ -304,9 +326,10 @@ def gibbs_terms(ctx: Context) -> GibbsTerms:
         sub = sub.loc[keep]
         return GibbsTerms(
             ids=sub.index, H=sub["dfH298"].to_numpy(float), G=sub["dfG298"].to_numpy(float),
-            S=sub["S298"].to_numpy(float), uH=np.nan_to_num(sub["u_dfH298"].to_numpy(float)),
-            uG=np.nan_to_num(sub["u_dfG298"].to_numpy(float)),
-            uS=np.nan_to_num(sub["u_S298"].to_numpy(float)),
+            S=sub["S298"].to_numpy(float),
+            uH=_stated_or_assumed(sub["u_dfH298"], assumed_uncertainty(ctx, "dfH298")),
+            uG=_stated_or_assumed(sub["u_dfG298"], assumed_uncertainty(ctx, "dfG298")),
+            uS=_stated_or_assumed(sub["u_S298"], assumed_uncertainty(ctx, "S298")),
             rH=rounding(sub, "dfH298"), rG=rounding(sub, "dfG298"), rS=rounding(sub, "S298"),
             sum_el=sum_el[keep], var_el=var_el[keep], k=coverage_k(ctx), skipped=skipped)
 
@@ -367,7 +390,8 @@ def gibbs_consistency(ctx: Context) -> Iterator[Finding]:
             f"(ΔfS° = {num(dfS)} J/(mol·K) from S° = {num(gt.S[i])} and the element entropies: "
             f"{origins[ident]}{conv}); the difference {num(resid[i])} kJ/mol exceeds the "
             f"tolerance {num(tol[i])} kJ/mol = {num(k)} × the combined standard uncertainty of ΔfG°, "
-            "ΔfH°, T·S° and the element entropies, with half a unit in the last digit given of each value",
+            "ΔfH°, T·S° and the element entropies, with half a unit in the last digit given of each value "
+            "(a value stating no uncertainty counts with the policy's assumed one)",
             species=ident, field="dfG298", observed=gt.G[i], expected=expected[i], tolerance=tol[i])
 
 

@@ -340,3 +340,155 @@ def implied_298(group: ModelGroup) -> tuple[np.ndarray, np.ndarray]:
     if group.kind == "shomate":
         h = np.where(np.isnan(_pick(group.c_h, seg)), _pick(group.stated_h, seg), h)
     return h, s
+
+
+# -- derived tables -----------------------------------------------------------------------------------------
+# derived_table (integrate.py) of many species at once, for the largest table of a release. The chained
+# integrals repeat CpModel._chained and TabulatedModel._chained operation for operation: the offsets that
+# join the ranges, then the value at T minus the value at 298.15 K, so that every float is the one the
+# per-species function gives (tests/thermo/test_batch_tables.py compares them exactly).
+
+
+@dataclass
+class SpeciesTable:
+    """The derived table of one species: its model's tmin and tmax (K) and ``values`` (rows, 5), the
+    columns of integrate.TABLE_COLUMNS (T, Cp, S, H − H298, G − H298)."""
+
+    tmin: float
+    tmax: float
+    values: np.ndarray
+
+
+@dataclass
+class _Span:
+    """What default_grid reads of a model (its range, and whether it covers 298.15 K), without building
+    the model object."""
+
+    tmin: float
+    tmax: float
+    reference: bool
+
+    def covers_reference(self) -> bool:
+        return self.reference
+
+
+_PRIMS = {"shomate": (_shomate_cp, _shomate_h, _shomate_s), "nasa7": (_nasa_cp, _nasa_h, _nasa_s)}
+
+
+def _polynomial_increments(group: ModelGroup, T: np.ndarray, row: np.ndarray
+                           ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Cp, H − H298 and S − S298 at T (N,), element k belonging to model row[k] of the group."""
+    cp_f, h_f, s_f = _PRIMS[group.kind]
+    n, s = group.size, group.nseg
+    idx = (group.lo[row, 1:] < T[:, None]).sum(axis=1)  # searchsorted(breaks, T, side="left")
+    c = group.coef[row, idx]
+    cp = cp_f(c, T)
+    at_ref = piece_at(group, T_REF)
+    ref = np.full(n, T_REF)
+    out = []
+    for prim in (h_f, s_f):
+        offsets = np.zeros((n, s))
+        for i in range(1, s):
+            b = group.lo[:, i]
+            offsets[:, i] = offsets[:, i - 1] + prim(group.coef[:, i - 1], b) - prim(group.coef[:, i], b)
+        base = prim(_pick(group.coef, at_ref), ref) + _pick(offsets, at_ref)
+        out.append(prim(c, T) + offsets[row, idx] - base[row])
+    return cp, out[0], out[1]
+
+
+def _table_increments(group: ModelGroup, T: np.ndarray, row: np.ndarray
+                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """As _polynomial_increments for tabulated models (TabulatedModel.cp and _chained)."""
+    Tp, Vp = group.T, group.V
+    b = np.diff(Vp, axis=1) / np.diff(Tp, axis=1)
+    a = Vp[:, :-1] - b * Tp[:, :-1]
+    T0, T1 = Tp[:, :-1], Tp[:, 1:]
+    dh = (a * (T1 - T0) + b * (T1**2 - T0**2) / 2) / 1000.0
+    ds = a * np.log(T1 / T0) + b * (T1 - T0)
+    zero = np.zeros((group.size, 1))
+    hn = np.concatenate([zero, np.cumsum(dh, axis=1)], axis=1)
+    sn = np.concatenate([zero, np.cumsum(ds, axis=1)], axis=1)
+    inner = Tp[:, 1:-1]
+
+    def at(x: np.ndarray, rows: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        idx = (inner[rows] < x[:, None]).sum(axis=1)
+        ak, bk, tk = a[rows, idx], b[rows, idx], Tp[rows, idx]
+        h = hn[rows, idx] + (ak * x + bk * x**2 / 2) / 1000.0 - (ak * tk + bk * tk**2 / 2) / 1000.0
+        s = sn[rows, idx] + (ak * np.log(x) + bk * x) - (ak * np.log(tk) + bk * tk)
+        return ak + bk * x, h, s
+
+    cp, h, s = at(T, row)
+    all_rows = np.arange(group.size)
+    _, h_ref, s_ref = at(np.full(group.size, T_REF), all_rows)
+    return cp, h - h_ref[row], s - s_ref[row]
+
+
+def _inside(group: ModelGroup, T: np.ndarray, row: np.ndarray) -> np.ndarray:
+    """Per element, whether CpModel._check accepts T (inside a range, or 298.15 K within the slack)."""
+    lo, hi = group.lo[row], group.hi[row]
+    ok = ((lo <= T[:, None]) & (T[:, None] <= hi)).any(axis=1)
+    return ok | ((T == T_REF) & (T >= lo[:, 0] - REF_SLACK_K) & (T <= hi[:, -1]))
+
+
+def derived_tables(records: Sequence[Any], step: float = 100.0) -> list[SpeciesTable | None]:
+    """``derived_table(record, default_grid(model, step))`` of every record, as arrays, in one pass per
+    group of models; None where that call (or building the model, or the grid) raises InputError.
+
+    The same floats as the per-species functions; models that are not batched (malformed, or a table of
+    many points) go through them one by one.
+    """
+    from ..errors import InputError
+    from .integrate import TABLE_COLUMNS, default_grid, derived_table, property_value, record_model
+
+    out: list[SpeciesTable | None] = [None] * len(records)
+    objs = [r.get("cp_model") if isinstance(r, dict) else None for r in records]
+    batch = read_models(objs)
+    for pos in batch.unbatched:
+        try:
+            model = record_model(records[pos])
+            frame = derived_table(records[pos], default_grid(model, step))
+        except InputError:
+            continue
+        values = frame.loc[:, list(TABLE_COLUMNS)].to_numpy(dtype="float64")
+        out[pos] = SpeciesTable(model.tmin, model.tmax, values)
+    grids: dict[float, np.ndarray] = {}  # grids depend only on tmax once 298.15 K is covered
+    for group in batch.groups:
+        tmin, tmax = group.lo[:, 0], group.hi[:, -1]
+        reference = covers(group, T_REF)
+        keep, Ts, s298 = [], [], []
+        for k, pos in enumerate(group.members.tolist()):
+            if not reference[k]:
+                continue  # derived_table refuses a model whose range leaves out 298.15 K
+            try:
+                s = property_value(records[pos], "S298")
+                top = float(tmax[k])
+                grid = grids.get(top)
+                if grid is None:
+                    grid = grids[top] = default_grid(_Span(float(tmin[k]), top, True), step)  # type: ignore[arg-type]
+            except InputError:
+                continue
+            if s is None:
+                continue
+            keep.append(k)
+            Ts.append(grid)
+            s298.append(s[0])
+        if not keep:
+            continue
+        rows = np.array(keep, dtype=np.intp)
+        lengths = np.array([len(g) for g in Ts])
+        row = np.repeat(rows, lengths)
+        T = np.concatenate(Ts)
+        if group.kind == "tabulated":
+            cp, dh, ds = _table_increments(group, T, row)
+            bad = np.zeros(len(group.members), dtype=bool)
+        else:
+            cp, dh, ds = _polynomial_increments(group, T, row)
+            bad = np.bincount(row, weights=~_inside(group, T, row), minlength=group.size) > 0
+        S = np.repeat(np.array(s298), lengths) + ds
+        G = dh - T * S / 1000.0
+        block = np.stack([T, cp, S, dh, G])  # (5, N): each species' rows are a column slice
+        ends = np.cumsum(lengths)
+        for k, a, b in zip(keep, (ends - lengths).tolist(), ends.tolist(), strict=True):
+            if not bad[k]:
+                out[int(group.members[k])] = SpeciesTable(float(tmin[k]), float(tmax[k]), block[:, a:b].T)
+    return out

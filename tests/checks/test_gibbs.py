@@ -80,11 +80,13 @@ def test_dataset_reference_species_override_the_builtin_table() -> None:
     base = [r for r in key_records() if r["id"] == "h2o-l"]
     o2 = record("oxygen", "O2", "g", dfH=0.0, dfG=0.0, S=205.152 + 10.0, u={"S298": 0.005},
                 reference_state=True)
-    shifted = findings(context([*base, o2]), "gibbs-consistency")
+    # The tabulated ΔfG° states no uncertainty; assume none here, so that the shift alone decides.
+    exact = {"policy": {"assumed_uncertainty": {"dfG298": 0.0}}}
+    shifted = findings(context([*base, o2], exact), "gibbs-consistency")
     assert len(shifted) == 1 and "species oxygen" in shifted[0].message
     assert "H from the built-in table" in shifted[0].message
     plain = record("oxygen", "O2", "g", dfH=0.0, dfG=0.0, S=205.152, u={"S298": 0.005}, reference_state=True)
-    unshifted = findings(context([*key_records({"h2o-l": 5.0})[:1], plain]), "gibbs-consistency")
+    unshifted = findings(context([*key_records({"h2o-l": 5.0})[:1], plain], exact), "gibbs-consistency")
     assert shifted[0].expected - unshifted[0].expected == pytest.approx(T * 5 / 1000, abs=1e-9)
 
 
@@ -140,7 +142,10 @@ def test_janaf_gas_ions_pass_under_the_electron_gas_convention() -> None:
     shifted = [dict(r, properties=dict(r["properties"], dfG298={"value": r["properties"]["dfG298"]["value"]
                                                                  + 1.0, "unit": "kJ/mol"}))
                for r in recs[:3]]
-    assert len(findings(context(shifted, {"electron_convention": "electron-gas"}), "gibbs-consistency")) == 3
+    # The shifted values state no uncertainty: assume none, so that the 1 kJ/mol shift alone decides.
+    exact = {"electron_convention": "electron-gas",
+             "policy": {"assumed_uncertainty": {"dfH298": 0.0, "dfG298": 0.0, "S298": 0.0}}}
+    assert len(findings(context(shifted, exact), "gibbs-consistency")) == 3
 
 
 def test_gas_ions_are_not_checked_without_an_electron_convention() -> None:
@@ -174,3 +179,16 @@ def test_janaf_table_passes_gibbs_consistency() -> None:
     share = 1 - errors / checked
     print(f"\nNIST-JANAF 1998: {checked} rows checked, {share:.1%} pass gibbs-consistency")
     assert share >= 0.95, f"only {share:.1%} of {checked} JANAF rows pass"
+
+
+def test_a_value_without_uncertainty_counts_with_the_policy_assumed_one() -> None:
+    """A ΔfG° stating no uncertainty, 1.5 kJ/mol off: within the default assumption of u = 1 kJ/mol
+    (tolerance about 2 × 1 kJ/mol), beyond a policy that assumes 0.1 kJ/mol."""
+    base = [r for r in key_records({"h2o-l": 1.5}) if r["id"] == "h2o-l"]
+    for rec in base:
+        rec["properties"]["dfG298"].pop("uncertainty", None)
+        rec["properties"]["dfG298"].pop("coverage", None)
+    assert findings(context(base), "gibbs-consistency") == []
+    strict = {"policy": {"assumed_uncertainty": {"dfG298": 0.1}}}
+    [f] = findings(context(base, strict), "gibbs-consistency")
+    assert f.species == "h2o-l" and f.field == "dfG298"
