@@ -6,6 +6,7 @@ from __future__ import annotations
 import copy
 import functools
 import random
+import sys
 from collections import Counter
 
 import pytest
@@ -195,3 +196,31 @@ def test_detection_share_and_false_alarms_over_a_seeded_sample() -> None:
     assert total >= 0.9, summary
     assert false_alarm <= 0.06, summary
     assert all(tried[k] >= 30 for k in KINDS), summary
+
+
+def test_detection_and_false_alarms_on_rows_stating_no_uncertainty(monkeypatch: pytest.MonkeyPatch,
+                                                                   capsys: pytest.CaptureFixture) -> None:
+    """The same measurement on the CRC rows with every uncertainty removed, as an outside table imported
+    without uncertainty columns arrives: the checks then use the policy's assumed uncertainties. At
+    least 95 % of the injected faults found, errors on fewer than 2 % of the published rows."""
+    recs, left_out = crc_rows()
+    bare = []
+    for r in recs:
+        r = copy.deepcopy(r)
+        for v in r["properties"].values():
+            v.pop("uncertainty", None)
+            v.pop("coverage", None)
+        bare.append(r)
+    monkeypatch.setattr(sys.modules[__name__], "crc_rows", lambda: (tuple(bare), left_out))
+    _clean_ids.cache_clear()
+    try:
+        test_detection_share_and_false_alarms_over_a_seeded_sample()
+    finally:
+        _clean_ids.cache_clear()
+    out = capsys.readouterr().out
+    total = float(out.split("% of")[0].rsplit(" ", 1)[-1]) / 100
+    false_alarm = float(out.split("published rows: ")[1].split("%")[0]) / 100
+    with capsys.disabled():
+        print(out)
+    assert total >= 0.95, out
+    assert false_alarm < 0.02, out
